@@ -1,0 +1,1 @@
+"""tunnelstack's command line: argument parsing and output, nothing numerical."""
