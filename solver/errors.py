@@ -9,6 +9,30 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 
+def closest(name, options) -> str | None:
+    """The option most like `name` (for "did you mean" hints), or None."""
+    import difflib
+
+    name = str(name)
+    best, best_key = None, None
+    for i, opt in enumerate(options):
+        opt = str(opt)
+        ratio = difflib.SequenceMatcher(None, name.lower(), opt.lower()).ratio()
+        if ratio < 0.5:
+            continue
+        same_place = sum(a == b for a, b in zip(name, opt)) if len(name) == len(opt) else 0
+        key = (ratio, same_place, -i)
+        if best_key is None or key > best_key:
+            best, best_key = opt, key
+    return best
+
+
+def did_you_mean(name, options) -> str:
+    """' Did you mean 'x'?' or ''."""
+    c = closest(name, options)
+    return f" Did you mean {c!r}?" if c else ""
+
+
 class CaseError(ValueError):
     """A case file or a case parameter is invalid. The message is one line:
     the key path, the value, what is allowed, and the closest valid name."""

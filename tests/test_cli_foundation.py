@@ -1,0 +1,62 @@
+"""The command line as a new user meets it: help, materials, check, and bad cases."""
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from cli.main import main
+
+ROOT = Path(__file__).resolve().parent.parent
+CASES = ROOT / "cases"
+
+
+def test_help_lists_commands(capsys):
+    with pytest.raises(SystemExit) as info:
+        main(["--help"])
+    assert info.value.code == 0
+    out = capsys.readouterr().out
+    for cmd in ("materials", "check"):
+        assert cmd in out
+
+
+def test_materials_table_and_json(capsys):
+    assert main(["materials"]) == 0
+    out = capsys.readouterr().out
+    assert "SiO2" in out and "TaN" in out and "CBO_eV" in out
+    assert main(["materials", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["SiO2"]["parameters"]["relative_permittivity"]["source"] == "Robertson2004"
+    assert main(["materials", "Si3N4"]) == 0
+    assert "trap_depth_eV" in capsys.readouterr().out
+
+
+@pytest.mark.parametrize("case", sorted(p.name for p in CASES.glob("*.toml")))
+def test_check_every_shipped_case(case, capsys):
+    assert main(["check", str(CASES / case)]) == 0
+    out = capsys.readouterr().out
+    assert "EOT_nm" in out and "case OK" in out
+
+
+def test_check_reports_eot_total(capsys):
+    main(["check", str(CASES / "demo-cell.toml")])
+    out = capsys.readouterr().out
+    # EOT = 10*3.9/9 + 6*3.9/7.5 + 4.5 = 11.953 nm (hand formula, common practice)
+    assert "11.953" in out
+
+
+def test_bad_case_exit_2_one_line_no_traceback(tmp_path):
+    bad = tmp_path / "bad.toml"
+    bad.write_text((CASES / "mos-capacitor.toml").read_text().replace("thickness_nm = 5.0", "thickness_nm = -1"))
+    proc = subprocess.run([sys.executable, "-m", "cli", "check", str(bad)], capture_output=True, text=True,
+                          cwd=ROOT)
+    assert proc.returncode == 2
+    assert proc.stderr.strip().count("\n") == 0
+    assert "layers[0].thickness_nm: must be > 0" in proc.stderr
+    assert "Traceback" not in proc.stderr
+
+
+def test_missing_file_exit_2(capsys):
+    assert main(["check", "no-such-case.toml"]) == 2
+    assert "not found" in capsys.readouterr().err
