@@ -464,3 +464,513 @@ def _plain_attr(value):
             return [_str(v) for v in value]
         return value.tolist()
     return value
+
+
+# ---------------------------------------------------------------------------
+# study files
+#
+# Layout of a study file (root attribute kind = "study")
+#   root attributes   as for a run, plus study_hash (sha256 of the case text and
+#                     the study spec) and compute (the point computation's name)
+#   /study            group attributes: compute, mode ("grid" | "zip"), keys
+#                     (axis key paths), spec (JSON), n_points
+#     <key path>      one 1-D dataset per axis, e.g. "layers.tunnel.thickness_nm",
+#                     units and spacing ("list" | "linear" | "log") as attributes;
+#                     grid mode: each is the dimension scale of its own axis;
+#                     zip mode: all lie along the one dimension "point" (a scale
+#                     0..n-1) and are listed in each variable's `coordinates`
+#     completed       int8 over the study axes: 1 = point finished (result or error)
+#     failed          int8: 1 = the point raised; see error_type / error_message
+#     error_type      fixed-length UTF-8 bytes (64): exception class name
+#     error_message   fixed-length UTF-8 bytes (400): its message, cut to fit
+#     elapsed_s       wall time of the point's computation, s
+#     <output>        float64 over the study axes, NaN where not computed
+#     <profile>       float64 over the study axes + the profile's own axes
+#                     (e.g. "node"), NaN-padded; <axis>_length (int32 over the
+#                     study axes) holds the valid length of that axis per point
+#
+# Crash safety: every dataset is contiguous and written in full when the file
+# is created (atomically, temp file + os.replace), so a finished point changes
+# raw data only, never HDF5 metadata. Per point: outputs and error fields are
+# written, the file flushed, then `completed` set and flushed again. A SIGKILL
+# leaves at worst a half-written point whose `completed` is 0: it is computed
+# again on resume. When a profile is longer than the room reserved for it, the
+# whole file is rebuilt with more room (atomically again).
+
+ERROR_TYPE_BYTES = 64
+ERROR_MESSAGE_BYTES = 400
+_CREATE = {"track_times": False}
+
+
+def _fixed_bytes(text: str, size: int) -> bytes:
+    raw = text.encode("utf-8", "replace")
+    if len(raw) <= size:
+        return raw
+    cut = raw[: size - 3]
+    return cut.decode("utf-8", "ignore").encode("utf-8") + b"..."
+
+
+class StudyLock:
+    """An exclusive lock file `<study file>.lock` holding pid, host and start time.
+
+    A lock left by a dead process on this host is taken over with a notice;
+    a live one (or one from another host) is refused with a clear message.
+    """
+
+    def __init__(self, path, notice=None):
+        self.path = Path(str(path) + ".lock")
+        self._notice = notice or (lambda text: None)
+        self._held = False
+
+    @staticmethod
+    def _start_time(pid: int) -> str:
+        try:
+            with open(f"/proc/{pid}/stat", "rb") as fh:
+                return fh.read().rsplit(b")", 1)[1].split()[19].decode()
+        except (OSError, IndexError):
+            return ""
+
+    def _owner_alive(self, info: dict) -> bool | None:
+        """True/False on this host, None when the lock is from another host."""
+        import socket
+
+        if info.get("host") != socket.gethostname():
+            return None
+        pid = int(info.get("pid", -1))
+        if pid <= 0:
+            return False
+        try:
+            os.kill(pid, 0)
+        except ProcessLookupError:
+            return False
+        except PermissionError:
+            return True
+        started = info.get("process_start", "")
+        return not (started and self._start_time(pid) and started != self._start_time(pid))
+
+    def acquire(self) -> "StudyLock":
+        import json
+        import socket
+
+        info = {
+            "pid": os.getpid(),
+            "host": socket.gethostname(),
+            "process_start": self._start_time(os.getpid()),
+            "since_utc": _utc_now(),
+        }
+        for _attempt in range(3):
+            try:
+                fd = os.open(self.path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o644)
+            except FileExistsError:
+                try:
+                    other = json.loads(self.path.read_text() or "{}")
+                except (OSError, ValueError):
+                    other = {}
+                alive = self._owner_alive(other) if other else False
+                if alive is None:
+                    raise StoreError(
+                        f"{self.path}: the study file is locked by pid {other.get('pid')} on host "
+                        f"{other.get('host')!r} since {other.get('since_utc')}; if no study runs "
+                        "there any more, remove the lock file"
+                    ) from None
+                if alive:
+                    raise StoreError(
+                        f"{self.path}: another study (pid {other.get('pid')}, since "
+                        f"{other.get('since_utc')}) is writing this file; wait for it or stop it"
+                    ) from None
+                self._notice(
+                    f"note: taking over the stale lock {self.path} "
+                    f"(pid {other.get('pid', '?')} is no longer running)"
+                )
+                try:
+                    self.path.unlink()
+                except FileNotFoundError:
+                    pass
+                continue
+            with os.fdopen(fd, "w") as fh:
+                json.dump(info, fh)
+            self._held = True
+            return self
+        raise StoreError(f"{self.path}: cannot take the lock (it keeps reappearing)")
+
+    def release(self) -> None:
+        if self._held:
+            self._held = False
+            try:
+                self.path.unlink()
+            except FileNotFoundError:
+                pass
+
+    def __enter__(self):
+        return self.acquire()
+
+    def __exit__(self, *exc):
+        self.release()
+        return False
+
+
+def _study_root_attrs(plan, case_text: str, command: str) -> dict:
+    return root_attributes(
+        "study", case_text, command, {"study_hash": plan.spec_hash, "compute": plan.compute.name}
+    )
+
+
+def _create_study_layout(f: h5py.File, plan, reserves: dict[str, int]) -> None:
+    g = f.create_group("study")
+    g.attrs["compute"] = plan.compute.name
+    g.attrs["mode"] = plan.mode
+    g.attrs["keys"] = [a.key for a in plan.axes]
+    g.attrs["spec"] = plan.spec_json
+    g.attrs["n_points"] = plan.n_points
+    shape, dims = plan.shape, plan.dims
+    scales: dict[str, h5py.Dataset] = {}
+    coords_attr = ""
+    if plan.mode == "zip":
+        ds = g.create_dataset("point", data=np.arange(plan.n_points, dtype=np.int64), **_CREATE)
+        ds.attrs["units"] = "1"
+        ds.attrs["description"] = "index of the study point (axes zipped)"
+        ds.make_scale("point")
+        scales["point"] = ds
+        coords_attr = " ".join(a.key for a in plan.axes)
+    for axis in plan.axes:
+        ds = g.create_dataset(axis.key, data=np.asarray(axis.values, dtype=float), **_CREATE)
+        ds.attrs["units"] = axis.units
+        ds.attrs["description"] = f"study axis: values of {axis.key}"
+        ds.attrs["spacing"] = axis.spacing
+        if plan.mode == "grid":
+            ds.make_scale(axis.key)
+            scales[axis.key] = ds
+        else:
+            ds.dims[0].attach_scale(scales["point"])
+    for dim, size in reserves.items():
+        ds = g.create_dataset(dim, shape=(size,), dtype=">f4", **_CREATE)
+        ds.make_scale(NOT_A_VARIABLE + f"{size:10d}".encode("ascii"))
+        scales[dim] = ds
+
+    def new(name, data, units, description, var_dims):
+        ds = g.create_dataset(name, data=data, **_CREATE)
+        ds.attrs["units"] = units
+        ds.attrs["description"] = description
+        if coords_attr:
+            ds.attrs["coordinates"] = coords_attr
+        for i, d in enumerate(var_dims):
+            ds.dims[i].attach_scale(scales[d])
+        return ds
+
+    new("completed", np.zeros(shape, np.int8), "1", "1 = point finished (result or recorded error)", dims)
+    new("failed", np.zeros(shape, np.int8), "1", "1 = point raised; see error_type, error_message", dims)
+    ds = new("error_type", np.zeros(shape, f"S{ERROR_TYPE_BYTES}"), "", "exception class of a failed point", dims)
+    ds.attrs["_Encoding"] = "utf-8"
+    ds = new("error_message", np.zeros(shape, f"S{ERROR_MESSAGE_BYTES}"), "", "message of a failed point", dims)
+    ds.attrs["_Encoding"] = "utf-8"
+    new("elapsed_s", np.full(shape, np.nan), "s", "wall time of the point's computation", dims)
+    for name, out in plan.outputs.items():
+        if out.dims:
+            full = shape + tuple(reserves[d] for d in out.dims)
+            ds = new(name, np.full(full, np.nan), out.units, out.description, dims + tuple(out.dims))
+        else:
+            ds = new(name, np.full(shape, np.nan), out.units, out.description, dims)
+        ds.attrs["log_scale"] = np.int8(out.log)
+    for dim in reserves:
+        new(f"{dim}_length", np.zeros(shape, np.int32), "1", f"valid length of axis {dim!r} per point", dims)
+
+
+def _write_new_study(path: Path, plan, case_text: str, command: str, reserves, copy_from=None) -> None:
+    directory = path.parent if str(path.parent) else Path(".")
+    fd, tmp_name = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=directory)
+    os.close(fd)
+    tmp = Path(tmp_name)
+    try:
+        with h5py.File(tmp, "w") as f:
+            if copy_from is None:
+                _set_attrs(f, _study_root_attrs(plan, case_text, command))
+            else:
+                for key, value in copy_from.attrs.items():
+                    f.attrs[key] = value
+            _create_study_layout(f, plan, reserves)
+            if copy_from is not None:
+                _copy_study_data(copy_from["study"], f["study"], plan, reserves)
+            f.flush()
+        with open(tmp, "rb+") as fh:
+            os.fsync(fh.fileno())
+        os.chmod(tmp, 0o666 & ~_umask())
+        os.replace(tmp, path)
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+
+
+def _copy_study_data(src: h5py.Group, dst: h5py.Group, plan, reserves) -> None:
+    for name in ("completed", "failed", "error_type", "error_message", "elapsed_s"):
+        dst[name][...] = src[name][...]
+    for dim in reserves:
+        if f"{dim}_length" in src:
+            dst[f"{dim}_length"][...] = src[f"{dim}_length"][...]
+    for name, out in plan.outputs.items():
+        if name not in src:
+            continue
+        if out.dims:
+            old = src[name][...]
+            region = tuple(slice(0, n) for n in old.shape)
+            dst[name][region] = old
+        else:
+            dst[name][...] = src[name][...]
+
+
+class StudyStore:
+    """The single writer of one study file; the sink a study run writes to.
+
+    Use `open_study(...)`: it takes the lock, creates or checks the file.
+    """
+
+    def __init__(self, path: Path, plan, lock: StudyLock):
+        self.path = path
+        self.plan = plan
+        self._lock = lock
+        self._file: h5py.File | None = None
+        self._open()
+
+    # -- file handling
+    def _open(self) -> None:
+        self._file = open_checked(self.path, "r+", kind="study")
+        g = self._file["study"]
+        self._g = g
+        self._reserves = {}
+        for out in self.plan.outputs.values():
+            for i, d in enumerate(out.dims):
+                self._reserves[d] = g[d].shape[0]
+        self._completed = g["completed"]
+        self._failed = g["failed"]
+
+    def _close_file(self) -> None:
+        if self._file is not None:
+            self._file.close()
+            self._file = None
+
+    def close(self) -> None:
+        try:
+            self._close_file()
+        finally:
+            self._lock.release()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+        return False
+
+    # -- queries
+    def completed_mask(self) -> np.ndarray:
+        return self._completed[...].astype(bool)
+
+    def pending(self, retry_failed: bool = False) -> list[int]:
+        done = self._completed[...].astype(bool).ravel()
+        if retry_failed:
+            done &= ~self._failed[...].astype(bool).ravel()
+        return [int(i) for i in np.flatnonzero(~done)]
+
+    def counts(self) -> tuple[int, int, int]:
+        """(finished, failed, total)"""
+        done = self._completed[...].astype(bool)
+        failed = self._failed[...].astype(bool) & done
+        return int(done.sum()), int(failed.sum()), int(done.size)
+
+    # -- writing
+    def _grow(self, needed: dict[str, int]) -> None:
+        reserves = dict(self._reserves)
+        for dim, n in needed.items():
+            if n > reserves.get(dim, 0):
+                reserves[dim] = int(-(-int(n * 1.25) // 16) * 16)
+        self._close_file()
+        with h5py.File(self.path, "r") as src:
+            _write_new_study(self.path, self.plan, "", "", reserves, copy_from=src)
+        self._open()
+
+    def write(self, outcome) -> None:
+        """Store one finished point (see the crash-safety note above)."""
+        plan, g = self.plan, self._g
+        idx = np.unravel_index(outcome.index, plan.shape)
+        ok = not outcome.error_type
+        if ok:
+            lengths: dict[str, int] = {}
+            for name, out in plan.outputs.items():
+                if out.dims:
+                    arr = np.asarray(outcome.values[name], dtype=float)
+                    for d, n in zip(out.dims, arr.shape):
+                        lengths[d] = max(lengths.get(d, 0), n)
+            if any(n > self._reserves[d] for d, n in lengths.items()):
+                self._grow(lengths)
+                g = self._g
+        for name, out in plan.outputs.items():
+            ds = g[name]
+            if not out.dims:
+                ds[idx] = float(outcome.values[name]) if ok else np.nan
+                continue
+            if not ok:
+                ds[idx] = np.nan
+                continue
+            arr = np.asarray(outcome.values[name], dtype=float)
+            full = np.full(ds.shape[len(plan.shape):], np.nan)
+            full[tuple(slice(0, n) for n in arr.shape)] = arr
+            ds[idx] = full
+        for dim in self._reserves:
+            g[f"{dim}_length"][idx] = lengths.get(dim, 0) if ok else 0
+        g["error_type"][idx] = _fixed_bytes(outcome.error_type, ERROR_TYPE_BYTES)
+        g["error_message"][idx] = _fixed_bytes(outcome.error_message, ERROR_MESSAGE_BYTES)
+        g["elapsed_s"][idx] = outcome.elapsed_s
+        self._failed[idx] = 0 if ok else 1
+        self._file.flush()
+        self._completed[idx] = 1
+        self._file.flush()
+
+
+def open_study(
+    path,
+    plan,
+    *,
+    case_text: str,
+    command: str,
+    restart: bool = False,
+    notice=None,
+) -> StudyStore:
+    """Take the lock on `path`, create the study file or check it belongs to
+    `plan`, and return its writer.
+
+    Raises StoreError when another writer holds the lock, when `path` is not a
+    tunnelstack study file (never overwritten), or when it was written for a
+    different case or study and `restart` is false.
+    """
+    target = Path(path)
+    directory = target.parent if str(target.parent) else Path(".")
+    if not directory.is_dir():
+        raise StoreError(f"{target}: directory {directory} does not exist")
+    lock = StudyLock(target, notice=notice).acquire()
+    try:
+        if target.exists():
+            try:
+                kind = file_kind(target)
+            except StoreError as err:
+                raise StoreError(f"{err}; refusing to overwrite it (remove it or choose another file)") from None
+            if kind != "study":
+                raise StoreError(
+                    f"{target}: is a tunnelstack {kind} file, not a study; refusing to overwrite it "
+                    "(choose another output file)"
+                )
+            with open_checked(target, kind="study") as f:
+                old_hash = _str(f.attrs.get("study_hash"))
+                done = int(np.count_nonzero(f["study/completed"][...])) if "study/completed" in f else 0
+            if old_hash != plan.spec_hash:
+                if not restart:
+                    raise StoreError(
+                        f"{target}: holds a study of a different case or study spec "
+                        f"({done} finished points); use --restart to discard them and start over, "
+                        "or choose another output file"
+                    )
+                create = True
+            else:
+                create = restart
+        else:
+            create = True
+        if create:
+            _write_new_study(target, plan, case_text, command, dict(plan.profile_reserves))
+        return StudyStore(target, plan, lock)
+    except BaseException:
+        lock.release()
+        raise
+
+
+@dataclass(frozen=True)
+class StudyAxisData:
+    key: str
+    values: np.ndarray
+    units: str
+    spacing: str
+
+
+@dataclass(frozen=True)
+class StudyData:
+    """A study file read back: everything `show`, `plot` and `export` need."""
+
+    path: Path
+    attrs: dict
+    compute: str
+    mode: str
+    axes: tuple[StudyAxisData, ...]
+    dims: tuple[str, ...]
+    shape: tuple[int, ...]
+    completed: np.ndarray
+    failed: np.ndarray
+    error_type: np.ndarray
+    error_message: np.ndarray
+    elapsed_s: np.ndarray
+    outputs: dict        # name -> Data over the study axes (scalars)
+    profiles: dict       # name -> Data over the study axes + profile axes
+    lengths: dict        # profile axis -> int array over the study axes
+    log_scale: dict      # output name -> bool
+
+
+def _decode_bytes(arr: np.ndarray) -> np.ndarray:
+    flat = [bytes(v).decode("utf-8", "replace") for v in arr.ravel()]
+    return np.array(flat, dtype=object).reshape(arr.shape)
+
+
+def read_study(path) -> StudyData:
+    """Read a study file; StoreError naming the file if it is not a readable one."""
+    p = Path(path)
+    with open_checked(p, kind="study") as f:
+        try:
+            g = f["study"]
+            mode = _str(g.attrs["mode"])
+            keys = [_str(k) for k in g.attrs["keys"]]
+            axes = tuple(
+                StudyAxisData(
+                    key=k,
+                    values=g[k][...],
+                    units=_str(g[k].attrs.get("units", "")),
+                    spacing=_str(g[k].attrs.get("spacing", "list")),
+                )
+                for k in keys
+            )
+            dims = tuple(keys) if mode == "grid" else ("point",)
+            shape = g["completed"].shape
+            reserved = set()
+            for name, ds in g.items():
+                if _is_anonymous_scale(ds):
+                    reserved.add(name)
+            skip = {"completed", "failed", "error_type", "error_message", "elapsed_s", "point"}
+            skip |= set(keys) | reserved | {f"{d}_length" for d in reserved}
+            outputs, profiles, log_scale = {}, {}, {}
+            for name, ds in g.items():
+                if name in skip:
+                    continue
+                data = Data(
+                    values=ds[...],
+                    units=_str(ds.attrs.get("units", "")),
+                    dims=_dataset_dims(ds),
+                    description=_str(ds.attrs.get("description", "")),
+                )
+                log_scale[name] = bool(ds.attrs.get("log_scale", 0))
+                (profiles if ds.ndim > len(shape) else outputs)[name] = data
+            lengths = {d: g[f"{d}_length"][...] for d in reserved if f"{d}_length" in g}
+            completed = g["completed"][...].astype(bool)
+            return StudyData(
+                path=p,
+                attrs={k: _plain_attr(v) for k, v in f.attrs.items()},
+                compute=_str(g.attrs.get("compute")),
+                mode=mode,
+                axes=axes,
+                dims=dims,
+                shape=tuple(shape),
+                completed=completed,
+                failed=g["failed"][...].astype(bool) & completed,
+                error_type=_decode_bytes(g["error_type"][...]),
+                error_message=_decode_bytes(g["error_message"][...]),
+                elapsed_s=g["elapsed_s"][...],
+                outputs=outputs,
+                profiles=profiles,
+                lengths=lengths,
+                log_scale=log_scale,
+            )
+        except (OSError, KeyError, RuntimeError, ValueError) as err:
+            raise StoreError(f"{p}: study file truncated or corrupt ({_short(err)})") from None
