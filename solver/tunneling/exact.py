@@ -1,0 +1,89 @@
+"""Exact transmission through a multilayer barrier (transfer matrices).
+
+Flat layers use exponentials or plane waves, linear layers Airy functions
+(Gundlach's exact solution of the trapezoidal barrier); psi and psi'/m are
+continuous at every interface (BenDaniel-Duke). The real 2x2 transfer
+matrices, the logarithmic bookkeeping of the exponential scales and the
+Airy functions live in the numba kernels of `_kernels` and `_airy`.
+
+References
+----------
+.. [1] K. H. Gundlach, Solid-State Electron. 9, 949 (1966).
+.. [2] D. J. BenDaniel and C. B. Duke, Phys. Rev. 152, 683 (1966).
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from solver.errors import ComputationError
+from solver.tunneling._airy import anchors_and_coefficients
+from solver.tunneling._kernels import transfer_product, transmission_from_product
+from solver.tunneling.barrier import Barrier
+from solver.units import EV_TO_J
+
+__all__ = ["transmission", "transfer_matrix"]
+
+
+def _energies_J(energy_eV) -> tuple[np.ndarray, tuple]:
+    e = np.asarray(energy_eV, dtype=np.float64)
+    if not np.all(np.isfinite(e)):
+        bad = e[~np.isfinite(e)].ravel()[0]
+        raise ValueError(f"transmission: energy_eV must be finite, got {bad}")
+    return np.ascontiguousarray(e.ravel()) * EV_TO_J, e.shape
+
+
+def _check_barrier(barrier) -> None:
+    if not isinstance(barrier, Barrier):
+        raise ValueError(f"transmission: barrier must be a solver.tunneling.Barrier, got {type(barrier).__name__}")
+
+
+def transfer_matrix(barrier: Barrier, energy_eV):
+    """Real transfer matrix of the stack on (psi, psi'/m) in reduced units.
+
+    Returns (p11, p12, p21, p22, log_scale): the matrix is
+    exp(log_scale) * [[p11, p12], [p21, p22]], arrays shaped like `energy_eV`.
+    Lengths are in nm, psi'/m in nm^-1 per m0 (see `_kernels`).
+    """
+    _check_barrier(barrier)
+    e_J, shape = _energies_J(energy_eV)
+    d = barrier.layer_data_si
+    anchors, u, v = anchors_and_coefficients()
+    parts = transfer_product(e_J, d.thickness_m, d.u_start_J, d.u_end_J, d.mass_kg, anchors, u, v)
+    return tuple(p.reshape(shape) for p in parts)
+
+
+def transmission(barrier: Barrier, energy_eV) -> np.ndarray:
+    """Exact transmission probability T(E) through `barrier`.
+
+    Parameters
+    ----------
+    barrier : Barrier
+        The potential-energy profile (flat and linear layers, two flat leads).
+    energy_eV : float or array_like
+        Longitudinal energy on the same absolute scale as the band edges, eV.
+
+    Returns
+    -------
+    numpy.ndarray
+        T = (k_R/m_R)/(k_L/m_L) |t|^2, same shape as `energy_eV` (a scalar gives
+        shape ()). 0 where either lead has no propagating state; always finite
+        and in [0, 1]; relative accuracy about 1e-10 or better down to 1e-300
+        away from sharp resonances.
+
+    Raises
+    ------
+    ValueError
+        If `barrier` is not a Barrier or an energy is not finite.
+    ComputationError
+        If a non-finite T were produced (never returned silently).
+    """
+    _check_barrier(barrier)
+    e_J, shape = _energies_J(energy_eV)
+    d = barrier.layer_data_si
+    anchors, u, v = anchors_and_coefficients()
+    p11, p12, p21, p22, logs = transfer_product(e_J, d.thickness_m, d.u_start_J, d.u_end_J, d.mass_kg, anchors, u, v)
+    t = transmission_from_product(e_J, p11, p12, p21, p22, logs, d.lead_edge_J, d.lead_mass_kg)
+    if not np.all(np.isfinite(t)):
+        j = int(np.flatnonzero(~np.isfinite(t))[0])
+        raise ComputationError(f"transmission: non-finite T at energy_eV={e_J[j] / EV_TO_J!r} for {barrier!r}")
+    return t.reshape(shape)
