@@ -1,0 +1,666 @@
+"""The tunneling barrier of a case's dielectric stack at a bias.
+
+Planar stack, x from the gate electrode toward the channel (as the contract's
+planar ``x_nm``). Energies are in eV on one absolute scale whose zero is the
+channel Fermi level; the gate Fermi level is then ``-gate_V``.
+
+Electrostatics of the stack
+---------------------------
+The field in each dielectric follows from continuity of the displacement
+D = eps0 eps_r E across every interface, with a jump D(x+) - D(x-) = sigma at a
+sheet charge sigma (Gauss's law; e.g. Jackson, Classical Electrodynamics,
+Sec. 4.4). A layer with a sheet charge inside (``charge_position`` strictly
+between 0 and 1) is split there into two segments with different fields. The
+voltage across the stack is the sum of E * t over the segments, so for a given
+stack voltage
+
+    D_0 = (eps0 V_stack - sum_j sigma_j X_j) / X,   X = sum_i t_i / eps_i,
+
+with X_j the sum of t / eps from sheet j to the channel end. Band edges come
+from vacuum-level alignment through the electron affinities: E_c = E_vac - chi,
+E_v = E_vac - chi - E_g (Robertson, EPJAP 28, 265 (2004) uses the same rule
+where no direct offset is given).
+
+The channel side
+----------------
+The band bending of the channel is the classical (Boltzmann, complete
+ionization, no interface traps) surface-charge relation of Sze & Ng, Physics of
+Semiconductor Devices, 3rd ed. (2007), Sec. 4.2,
+
+    Q_s = -sgn(psi_s) sqrt(2 eps_s kT) sqrt(p0 (e^-u + u - 1) + n0 (e^u - u - 1)),
+
+u = q psi_s / kT, with the displacement at the channel interface
+D_L = -(Q_s + Q_interface). The gate voltage is then
+V_G = phi_ms + psi_s + V_stack. This is an estimate of the surface state that
+lets a field or gate-voltage sweep run without the self-consistent solve; the
+self-consistent band profile feeds the same Barrier through
+`barrier_from_profile`.
+
+Orientation of the Barrier
+--------------------------
+Every Barrier built here is listed in the direction of the carrier flow: the
+left lead is the emitter, the right lead the collector, so the Tsu–Esaki
+current of the Barrier is positive for emission. For channel injection the
+layers therefore appear channel-first (reversed with respect to x).
+Holes are handled in the hole picture: the hole energy is minus the electron
+energy, the "band edge" of a layer for holes is -E_v, and the hole Fermi level
+of a lead is minus its electron Fermi level.
+
+Metal leads are free-electron bands with mass 1 m0 (a documented assumption,
+``metal_mass`` changes it) whose band bottom lies ``metal_fermi_depth_eV``
+below the Fermi level (5 eV by default, assumed; the current depends on it only
+through the lead's wave vector at the interface).
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+from typing import Sequence
+
+import numpy as np
+
+from solver.units import (
+    BOLTZMANN_EV_K,
+    EPSILON0_F_M,
+    M_TO_NM,
+    NM_TO_M,
+    PER_CM2_TO_PER_M2,
+    PER_CM3_TO_PER_M3,
+    Q_C,
+    V_PER_M_TO_MV_PER_CM,
+    MV_PER_CM_TO_V_PER_M,
+)
+
+CARRIERS = ("electron", "hole")
+EMITTERS = ("channel", "gate")
+THROUGH = ("stack", "injecting-layer")
+
+# q / (16 pi eps0) in eV nm: the image-force energy at distance x (nm) from a
+# perfectly conducting plane is -IMAGE_EV_NM / (eps_inf x). scipy.constants values.
+IMAGE_EV_NM = Q_C / (16.0 * math.pi * EPSILON0_F_M) * M_TO_NM
+
+DEFAULT_METAL_FERMI_DEPTH_EV = 5.0  # assumed: depth of a free-electron metal's band bottom below E_F
+DEFAULT_METAL_MASS = 1.0  # free-electron metal, common practice
+
+
+# --------------------------------------------------------------------------- data
+
+
+@dataclass(frozen=True)
+class StackData:
+    """Plain numbers of a planar stack, taken from a Case once (trade units).
+
+    Layers are listed from the gate to the channel. Charges are sheet densities
+    in q per cm^2 (positive = positive charge) at ``charge_position`` (0 gate
+    side .. 1 channel side) inside each layer. ``channel_*`` describe the
+    semiconductor channel at ``temperature_K``; ``gate_*`` the gate electrode.
+    """
+
+    names: tuple[str, ...]
+    thickness_nm: tuple[float, ...]
+    permittivity: tuple[float, ...]
+    optical_permittivity: tuple[float, ...]
+    affinity_eV: tuple[float, ...]
+    band_gap_eV: tuple[float, ...]
+    electron_mass: tuple[float, ...]
+    hole_mass: tuple[float, ...]
+    charge_cm2: tuple[float, ...]
+    charge_position: tuple[float, ...]
+    temperature_K: float
+    gate_kind: str  # "metal" | "semiconductor"
+    gate_work_function_eV: float
+    gate_affinity_eV: float | None  # semiconductor gate only
+    gate_band_gap_eV: float | None
+    gate_electron_mass: float | None
+    gate_hole_mass: float | None
+    channel_permittivity: float
+    channel_affinity_eV: float
+    channel_band_gap_eV: float
+    channel_conduction_dos_cm3: float
+    channel_valence_dos_cm3: float
+    channel_acceptors_cm3: float
+    channel_donors_cm3: float
+    channel_interface_charge_cm2: float
+    channel_electron_mass: float
+    channel_hole_mass: float
+
+    def __post_init__(self):
+        n = len(self.thickness_nm)
+        for name in ("names", "thickness_nm", "permittivity", "optical_permittivity",
+                     "affinity_eV", "band_gap_eV", "electron_mass", "hole_mass",
+                     "charge_cm2", "charge_position"):
+            value = tuple(getattr(self, name))
+            if name != "names":
+                value = tuple(float(v) for v in value)
+            if len(value) != n:
+                raise ValueError(f"StackData: {name} has {len(value)} entries, expected {n} (one per layer)")
+            object.__setattr__(self, name, value)
+        if n == 0:
+            raise ValueError("StackData: the stack has no dielectric layers")
+        for i in range(n):
+            for name in ("thickness_nm", "permittivity", "electron_mass", "hole_mass", "band_gap_eV"):
+                v = getattr(self, name)[i]
+                if not v > 0 or not math.isfinite(v):
+                    raise ValueError(f"layer {i}: {name} must be a finite number > 0, got {v}")
+            p = self.charge_position[i]
+            if not 0.0 <= p <= 1.0:
+                raise ValueError(f"layer {i}: charge_position must lie in [0, 1], got {p}")
+            if not math.isfinite(self.charge_cm2[i]) or not math.isfinite(self.affinity_eV[i]):
+                raise ValueError(f"layer {i}: charge_cm2 and electron_affinity_eV must be finite")
+        if self.gate_kind not in ("metal", "semiconductor"):
+            raise ValueError(f"gate kind must be 'metal' or 'semiconductor', got {self.gate_kind!r}")
+
+    @property
+    def count(self) -> int:
+        return len(self.thickness_nm)
+
+    def with_thickness(self, index: int, thickness_nm: float) -> "StackData":
+        t = list(self.thickness_nm)
+        t[index] = float(thickness_nm)
+        return replace(self, thickness_nm=tuple(t))
+
+
+def stack_data(case) -> StackData:
+    """The plain numbers of ``case``'s planar stack (see `StackData`).
+
+    Raises CaseError for a cylindrical case: the builder here is planar.
+    """
+    from solver.errors import CaseError
+
+    geometry = getattr(case, "geometry", None)
+    if geometry is not None and getattr(geometry, "kind", "planar") != "planar":
+        raise CaseError(
+            f"geometry.kind: {geometry.kind!r} is not supported by the stack barrier builder "
+            "(planar only); build the barrier from a solved band profile instead")
+    T = float(case.temperature_K)
+    layers = tuple(case.layers)
+    if not layers:
+        raise CaseError("layers: the case has no dielectric layers; at least one is required")
+    mats = [layer.material for layer in layers]
+    ch = case.channel
+    sc = ch.material
+    gate = case.gate
+    gate_kind = getattr(gate, "kind", "metal")
+    g_aff = g_gap = g_me = g_mh = None
+    if gate_kind == "semiconductor":
+        gm = gate.material
+        g_aff = float(gm.electron_affinity_eV)
+        g_gap = float(_call(gm.band_gap_eV, T))
+        g_me = float(getattr(gm, "tunnel_mass", None) or gm.transverse_mass)
+        g_mh = float(getattr(gm, "heavy_hole_mass", None) or gm.hole_dos_mass)
+    return StackData(
+        names=tuple(str(layer.name) for layer in layers),
+        thickness_nm=tuple(layer.thickness_nm for layer in layers),
+        permittivity=tuple(m.relative_permittivity for m in mats),
+        optical_permittivity=tuple(math.nan if m.optical_permittivity is None
+                                   else m.optical_permittivity for m in mats),
+        affinity_eV=tuple(m.electron_affinity_eV for m in mats),
+        band_gap_eV=tuple(m.band_gap_eV for m in mats),
+        electron_mass=tuple(m.electron_mass for m in mats),
+        hole_mass=tuple(m.hole_mass for m in mats),
+        charge_cm2=tuple(getattr(layer, "charge_cm2", 0.0) or 0.0 for layer in layers),
+        charge_position=tuple(getattr(layer, "charge_position", 0.5) for layer in layers),
+        temperature_K=T,
+        gate_kind=gate_kind,
+        gate_work_function_eV=float(gate.work_function_eV),
+        gate_affinity_eV=g_aff,
+        gate_band_gap_eV=g_gap,
+        gate_electron_mass=g_me,
+        gate_hole_mass=g_mh,
+        channel_permittivity=float(sc.relative_permittivity),
+        channel_affinity_eV=float(sc.electron_affinity_eV),
+        channel_band_gap_eV=float(_call(sc.band_gap_eV, T)),
+        channel_conduction_dos_cm3=float(_call(sc.conduction_dos_cm3, T)),
+        channel_valence_dos_cm3=float(_call(sc.valence_dos_cm3, T)),
+        channel_acceptors_cm3=float(ch.acceptors_cm3 or 0.0),
+        channel_donors_cm3=float(ch.donors_cm3 or 0.0),
+        channel_interface_charge_cm2=float(getattr(ch, "interface_charge_cm2", 0.0) or 0.0),
+        # One isotropic band per carrier: the material's lead (tunnel) mass for
+        # electrons, the heavy-hole mass for holes. Which Si mass supplies the
+        # transverse momentum is debated (Weinberg, J. Appl. Phys. 53, 5052 (1982));
+        # `stack_barrier(emitter_mass=...)` overrides it.
+        channel_electron_mass=float(getattr(sc, "tunnel_mass", None) or sc.transverse_mass),
+        channel_hole_mass=float(getattr(sc, "heavy_hole_mass", None) or sc.hole_dos_mass),
+    )
+
+
+def _call(value, T):
+    return value(T) if callable(value) else value
+
+
+# ------------------------------------------------------------------ electrostatics
+
+
+def stack_fields(thickness_nm: Sequence[float], permittivity: Sequence[float],
+                 charge_cm2: Sequence[float], charge_position: Sequence[float],
+                 stack_V: float):
+    """Fields of a planar stack with sheet charges for a voltage across it.
+
+    Parameters are per layer, gate first; ``stack_V`` = potential of the gate
+    side minus potential of the channel side (V). Returns
+    ``(segment_layer, segment_thickness_nm, segment_field_V_m, displacement_C_m2)``
+    where the field is along +x (gate -> channel) and ``displacement_C_m2`` is
+    D in each segment. A layer whose sheet charge sits strictly inside it gives
+    two segments.
+    """
+    t = np.asarray(thickness_nm, float)  # nm; converted once below
+    eps = np.asarray(permittivity, float)
+    sigma = np.asarray(charge_cm2, float) * PER_CM2_TO_PER_M2 * Q_C
+    pos = np.asarray(charge_position, float)
+    seg_layer, seg_t, sheet_after = [], [], []  # sheet_after: sigma at the segment's channel-side end
+    for i in range(t.size):
+        p = pos[i]
+        if sigma[i] != 0.0 and 0.0 < p < 1.0:
+            seg_layer += [i, i]
+            seg_t += [p * t[i], (1.0 - p) * t[i]]
+            sheet_after += [sigma[i], 0.0]
+        elif sigma[i] != 0.0 and p == 0.0:
+            # sheet at the layer's gate-side face: it sits before this layer
+            if seg_layer:
+                sheet_after[-1] += sigma[i]
+                seg_layer.append(i)
+                seg_t.append(t[i])
+                sheet_after.append(0.0)
+            else:  # on the gate electrode itself: it does not change the fields inside
+                seg_layer.append(i)
+                seg_t.append(t[i])
+                sheet_after.append(0.0)
+        else:
+            seg_layer.append(i)
+            seg_t.append(t[i])
+            sheet_after.append(sigma[i] if p == 1.0 else 0.0)
+    seg_t_nm = np.array(seg_t)
+    seg_t = seg_t_nm * NM_TO_M
+    seg_eps = eps[np.array(seg_layer)]
+    after = np.array(sheet_after)
+    # D in segment k = D_0 + sum of the sheets before it
+    before = np.concatenate(([0.0], np.cumsum(after)[:-1]))
+    x = seg_t / seg_eps  # t / eps per segment
+    d0 = (EPSILON0_F_M * stack_V - np.sum(before * x)) / np.sum(x)
+    d = d0 + before
+    return tuple(seg_layer), tuple(float(v) for v in seg_t_nm), d / (EPSILON0_F_M * seg_eps), d
+
+
+def _bulk_channel(data: StackData):
+    """Bulk carrier densities (m^-3), kT (eV) and E_c - E_F in the bulk (eV)."""
+    kT = BOLTZMANN_EV_K * data.temperature_K
+    nc = data.channel_conduction_dos_cm3 * PER_CM3_TO_PER_M3
+    nv = data.channel_valence_dos_cm3 * PER_CM3_TO_PER_M3
+    # n_i implied by the same (Nc, Nv, Eg) set, never mixed with a measured value
+    ni = math.sqrt(nc * nv) * math.exp(-data.channel_band_gap_eV / (2.0 * kT))
+    net = (data.channel_donors_cm3 - data.channel_acceptors_cm3) * PER_CM3_TO_PER_M3
+    half = 0.5 * abs(net)
+    major = half + math.sqrt(half * half + ni * ni)
+    minor = ni * ni / major
+    n0, p0 = (major, minor) if net >= 0 else (minor, major)
+    if n0 >= p0:
+        ec_minus_ef = kT * math.log(nc / n0)
+    else:
+        ec_minus_ef = data.channel_band_gap_eV - kT * math.log(nv / p0)
+    return n0, p0, kT, ec_minus_ef
+
+
+def surface_charge_C_m2(data: StackData, psi_V):
+    """Classical semiconductor charge per area (C/m^2) at band bending psi_V
+    (Sze & Ng 2007, Sec. 4.2; positive psi bends the bands down)."""
+    n0, p0, kT, _ = _bulk_channel(data)
+    u = np.asarray(psi_V, float) / kT
+    eps_s = data.channel_permittivity * EPSILON0_F_M
+    g = p0 * (np.expm1(-u) + u) + n0 * (np.expm1(u) - u)
+    return -np.sign(u) * np.sqrt(2.0 * eps_s * kT * Q_C * np.maximum(g, 0.0))
+
+
+def _surface_potential(data: StackData, displacement_C_m2: float) -> float:
+    """Band bending for a displacement D_L (C/m^2) in the dielectric at the channel."""
+    from scipy.optimize import brentq
+
+    target = -(displacement_C_m2 + data.channel_interface_charge_cm2 * PER_CM2_TO_PER_M2 * Q_C)
+    f = lambda psi: float(surface_charge_C_m2(data, psi)) - target  # noqa: E731, decreasing in psi
+    lo, hi = -1.0, 1.0
+    while f(lo) < 0.0:
+        lo *= 2.0
+        if lo < -64:
+            raise ValueError(f"surface potential: no bracket for a channel charge of {target:g} C/m^2")
+    while f(hi) > 0.0:
+        hi *= 2.0
+        if hi > 64:
+            raise ValueError(f"surface potential: no bracket for a channel charge of {target:g} C/m^2")
+    return float(brentq(f, lo, hi, xtol=1e-13, rtol=1e-14, maxiter=200))
+
+
+@dataclass(frozen=True)
+class StackState:
+    """The electrostatic state of the planar stack at one bias.
+
+    Energies are in eV with the channel Fermi level at 0. Segments are listed
+    from the gate to the channel; ``vacuum_level_eV`` has one entry per segment
+    boundary (segments + 1). Fields are along +x (gate -> channel): positive
+    when the gate is the more positive electrode.
+    """
+
+    stack_V: float
+    gate_V: float
+    surface_potential_V: float
+    segment_layer: tuple[int, ...]
+    segment_thickness_nm: tuple[float, ...]
+    segment_field_MV_cm: tuple[float, ...]
+    layer_fields_MV_cm: tuple[float, ...]  # per layer, channel-side segment
+    vacuum_level_eV: tuple[float, ...]
+    channel_conduction_eV: float  # channel band edges at the surface
+    channel_valence_eV: float
+
+    @property
+    def gate_fermi_eV(self) -> float:
+        return -self.gate_V
+
+    @property
+    def segment_x_nm(self) -> np.ndarray:
+        return np.concatenate(([0.0], np.cumsum(self.segment_thickness_nm)))
+
+
+def stack_state(data: StackData, *, stack_V: float | None = None, gate_V: float | None = None,
+                field_MV_cm: float | None = None, field_layer: int = -1,
+                field_side: str = "channel") -> StackState:
+    """Electrostatic state for exactly one of: the voltage across the stack
+    (``stack_V``, gate side minus channel side), the gate voltage (``gate_V``,
+    against the channel bulk), or the field along +x in layer ``field_layer``
+    (``field_MV_cm``; at its ``field_side`` = "gate" or "channel" segment when a
+    sheet charge splits it)."""
+    given = [v is not None for v in (stack_V, gate_V, field_MV_cm)]
+    if sum(given) != 1:
+        raise ValueError("stack_state: give exactly one of stack_V, gate_V, field_MV_cm")
+    _, _, kT, ec_minus_ef = _bulk_channel(data)
+    phi_s = data.channel_affinity_eV + ec_minus_ef  # channel work function, eV
+    phi_ms = data.gate_work_function_eV - phi_s
+    seg_layer, _, _, _ = stack_fields(data.thickness_nm, data.permittivity,
+                                      data.charge_cm2, data.charge_position, 0.0)
+    if field_MV_cm is not None:
+        n = data.count
+        if not -n <= field_layer < n:
+            raise ValueError(f"stack_state: field_layer {field_layer} out of range for {n} layers")
+        layer = field_layer % n
+        # fields are linear in the stack voltage: E = a V + b per segment
+        _, _, e0, _ = stack_fields(data.thickness_nm, data.permittivity, data.charge_cm2,
+                                   data.charge_position, 0.0)
+        _, _, e1, _ = stack_fields(data.thickness_nm, data.permittivity, data.charge_cm2,
+                                   data.charge_position, 1.0)
+        idx = [k for k, li in enumerate(seg_layer) if li == layer]
+        k = idx[0] if field_side == "gate" else idx[-1]
+        stack_V = (field_MV_cm * MV_PER_CM_TO_V_PER_M - e0[k]) / (e1[k] - e0[k])
+    if gate_V is not None:
+        from scipy.optimize import brentq
+
+        def excess(v_stack):
+            st = _state_from_stack(data, v_stack, phi_ms, ec_minus_ef)
+            return st.gate_V - gate_V
+
+        # V_G(V_stack) is increasing; bracket around V_G - phi_ms
+        guess = gate_V - phi_ms
+        lo, hi = guess - 4.0, guess + 4.0
+        while excess(lo) > 0:
+            lo -= 4.0 + abs(lo)
+        while excess(hi) < 0:
+            hi += 4.0 + abs(hi)
+        stack_V = brentq(excess, lo, hi, xtol=1e-12, rtol=1e-13, maxiter=200)
+    return _state_from_stack(data, float(stack_V), phi_ms, ec_minus_ef)
+
+
+def _state_from_stack(data: StackData, stack_V: float, phi_ms: float, ec_minus_ef: float) -> StackState:
+    seg_layer, seg_t, e, d = stack_fields(data.thickness_nm, data.permittivity,
+                                          data.charge_cm2, data.charge_position, stack_V)
+    d_channel = float(d[-1])
+    # a sheet at the channel-side face of the last layer sits on the interface
+    if data.charge_position[-1] == 1.0:
+        d_channel += data.charge_cm2[-1] * PER_CM2_TO_PER_M2 * Q_C
+    psi_s = _surface_potential(data, d_channel)
+    gate_V = phi_ms + psi_s + stack_V
+    ec_surface = ec_minus_ef - psi_s
+    vac_end = ec_surface + data.channel_affinity_eV
+    drops = np.asarray(e) * np.asarray(seg_t) * NM_TO_M  # volts per segment
+    vac = vac_end - np.concatenate(([0.0], np.cumsum(drops[::-1])))[::-1]
+    fields = np.asarray(e) * V_PER_M_TO_MV_PER_CM
+    layer_fields = [0.0] * data.count
+    for k, li in enumerate(seg_layer):
+        layer_fields[li] = float(fields[k])  # the last segment of a layer is its channel side
+    return StackState(
+        stack_V=float(stack_V), gate_V=float(gate_V), surface_potential_V=float(psi_s),
+        segment_layer=tuple(seg_layer), segment_thickness_nm=tuple(float(v) for v in seg_t),
+        segment_field_MV_cm=tuple(float(v) for v in fields),
+        layer_fields_MV_cm=tuple(layer_fields),
+        vacuum_level_eV=tuple(float(v) for v in vac),
+        channel_conduction_eV=float(ec_surface),
+        channel_valence_eV=float(ec_surface - data.channel_band_gap_eV),
+    )
+
+
+# ------------------------------------------------------------------------ barriers
+
+
+@dataclass(frozen=True)
+class StackBarrier:
+    """A Barrier oriented along the carrier flow (left lead = emitter), with what
+    the current and the hand formulas need.
+
+    ``fermi_left_eV`` / ``fermi_right_eV`` are the Fermi levels of emitter and
+    collector in the carrier's own picture (for holes, minus the electron
+    energies). ``barrier_height_eV`` is the barrier at the emitter interface
+    measured from the emitter's reference energy: its Fermi level for a metal,
+    its band edge for a semiconductor (the band offset). ``injecting_field_MV_cm``
+    is the field magnitude in the injecting layer at the emitter side,
+    ``injecting_drop_eV`` the fall of the band edge across that layer in the
+    direction of flow (positive when the field drives the carrier to the
+    collector). ``layer_order`` lists the stack layers in the Barrier's order.
+    """
+
+    barrier: object  # solver.tunneling.barrier.Barrier
+    carrier: str
+    emitter: str
+    fermi_left_eV: float
+    fermi_right_eV: float
+    temperature_K: float
+    barrier_height_eV: float
+    emitter_reference_eV: float
+    injecting_layer: int
+    injecting_field_MV_cm: float
+    injecting_drop_eV: float
+    injecting_mass: float
+    injecting_optical_permittivity: float
+    layer_order: tuple[int, ...]
+    image_force: bool = False
+    state: StackState | None = field(default=None, compare=False, repr=False)
+
+    @property
+    def regime(self) -> str:
+        """'direct' while the band edge at the far side of the injecting layer is
+        still above the emitter reference (q V_layer < barrier height),
+        'fowler-nordheim' above it (common practice, e.g. Schuegraf & Hu,
+        IEEE TED 41, 761 (1994))."""
+        return "fowler-nordheim" if self.injecting_drop_eV >= self.barrier_height_eV else "direct"
+
+
+def emission_sign(carrier: str, emitter: str) -> int:
+    """Sign of the field along +x that drives ``carrier`` out of ``emitter``:
+    +1 (gate positive) for electrons from the channel and holes from the gate,
+    -1 for electrons from the gate and holes from the channel."""
+    _check_choice("carrier", carrier, CARRIERS)
+    _check_choice("emitter", emitter, EMITTERS)
+    return 1 if (carrier == "electron") == (emitter == "channel") else -1
+
+
+def _check_choice(name, value, allowed):
+    if value not in allowed:
+        raise ValueError(f"{name} must be one of {', '.join(map(repr, allowed))}, got {value!r}")
+
+
+def _make_barrier(thickness_nm, u_start_eV, u_end_eV, mass, left, right):
+    from solver.tunneling.barrier import Barrier
+
+    return Barrier(tuple(thickness_nm), tuple(u_start_eV), tuple(u_end_eV), tuple(mass),
+                   left=tuple(left), right=tuple(right))
+
+
+def stack_barrier(data: StackData, state: StackState, *, carrier: str = "electron",
+                  emitter: str = "channel", through: str = "stack", image_force: bool = False,
+                  emitter_mass: float | None = None, metal_mass: float = DEFAULT_METAL_MASS,
+                  metal_fermi_depth_eV: float = DEFAULT_METAL_FERMI_DEPTH_EV,
+                  image_slices: int = 160) -> StackBarrier:
+    """The Barrier that ``carrier`` crosses when ``emitter`` emits it at ``state``.
+
+    ``through="stack"``: all dielectric layers up to the far electrode;
+    ``through="injecting-layer"``: only the layer at the emitter, collected in the
+    band of the next layer (flat lead at that interface; the far electrode when
+    the stack has one layer) – the current into a charge-trap layer.
+    ``image_force``: lower the profile by the image potential of the emitter,
+    -q^2/(16 pi eps0 eps_inf x) with the optical permittivity of each layer and
+    x the distance from the emitter interface (Sze & Ng 2007, Sec. 3.2.4;
+    single-image approximation, common practice), clipped at the emitter band
+    edge (semiconductor) or 1 eV below the Fermi level (metal); the nonlinear
+    profile is cut into ``image_slices`` flat slices (staircase), finer near the
+    emitter.
+    """
+    _check_choice("through", through, THROUGH)
+    emission_sign(carrier, emitter)  # checks both names
+    n = data.count
+    seg_layer = list(state.segment_layer)
+    vac = np.asarray(state.vacuum_level_eV)
+    t = np.asarray(state.segment_thickness_nm)
+    aff = np.asarray(data.affinity_eV)[seg_layer]
+    gap = np.asarray(data.band_gap_eV)[seg_layer]
+    ec_start, ec_end = vac[:-1] - aff, vac[1:] - aff
+    if carrier == "electron":
+        u_start, u_end = ec_start, ec_end
+        mass = np.asarray(data.electron_mass)[seg_layer]
+        flip = 1.0
+    else:  # hole picture: hole energy = -electron energy
+        u_start, u_end = -(ec_start - gap), -(ec_end - gap)
+        mass = np.asarray(data.hole_mass)[seg_layer]
+        flip = -1.0
+
+    # leads in the carrier's picture: (band_edge, mass, fermi, reference)
+    gate_fermi = -state.gate_V
+    if data.gate_kind == "metal":
+        gate_lead = (flip * gate_fermi - metal_fermi_depth_eV, metal_mass)
+        gate_ref = flip * gate_fermi
+    else:
+        ec_gate = vac[0] - data.gate_affinity_eV
+        if carrier == "electron":
+            gate_lead = (ec_gate, data.gate_electron_mass)
+        else:
+            gate_lead = (-(ec_gate - data.gate_band_gap_eV), data.gate_hole_mass)
+        gate_ref = gate_lead[0]
+    if carrier == "electron":
+        chan_lead = (state.channel_conduction_eV, data.channel_electron_mass)
+    else:
+        chan_lead = (-state.channel_valence_eV, data.channel_hole_mass)
+    chan_ref = chan_lead[0]
+    gate_fermi_c, chan_fermi_c = flip * gate_fermi, 0.0
+
+    if emitter == "channel":
+        order = list(range(len(seg_layer)))[::-1]
+        us, ue = u_end[order], u_start[order]
+        emit_lead, emit_fermi, emit_ref = chan_lead, chan_fermi_c, chan_ref
+        coll_lead, coll_fermi = gate_lead, gate_fermi_c
+    else:
+        order = list(range(len(seg_layer)))
+        us, ue = u_start[order], u_end[order]
+        emit_lead, emit_fermi, emit_ref = gate_lead, gate_fermi_c, gate_ref
+        coll_lead, coll_fermi = chan_lead, chan_fermi_c
+    if emitter_mass is not None:
+        if not emitter_mass > 0:
+            raise ValueError(f"emitter_mass must be > 0 (units of m0), got {emitter_mass}")
+        emit_lead = (emit_lead[0], float(emitter_mass))
+    thick = t[order]
+    m = mass[order]
+    layers_in_order = [seg_layer[k] for k in order]
+    inj = layers_in_order[0]
+    inj_segments = [j for j, li in enumerate(layers_in_order) if li == inj]
+
+    if through == "injecting-layer" and n > 1:
+        keep = inj_segments
+        nxt = layers_in_order[keep[-1] + 1]
+        next_seg = keep[-1] + 1
+        edge = us[next_seg]
+        next_mass = (data.electron_mass if carrier == "electron" else data.hole_mass)[nxt]
+        coll_lead = (float(edge), float(next_mass))
+        us, ue, thick, m = us[keep], ue[keep], thick[keep], m[keep]
+        layers_in_order = layers_in_order[:len(keep)]
+
+    field_inj = abs(float(state.segment_field_MV_cm[order[0]]))
+    drop = float(us[0] - ue[inj_segments[-1]])
+    height = float(us[0] - emit_ref)
+    layer_order = tuple(dict.fromkeys(layers_in_order))
+
+    if image_force:
+        metal_emitter = emitter == "gate" and data.gate_kind == "metal"
+        floor = emit_fermi - 1.0 if metal_emitter else emit_ref
+        barrier = _image_staircase(us, ue, thick, m, layers_in_order, data, emit_lead, coll_lead,
+                                   floor, image_slices)
+    else:
+        barrier = _make_barrier(thick, us, ue, m, emit_lead, coll_lead)
+    return StackBarrier(
+        barrier=barrier, carrier=carrier, emitter=emitter,
+        fermi_left_eV=float(emit_fermi), fermi_right_eV=float(coll_fermi),
+        temperature_K=data.temperature_K, barrier_height_eV=height,
+        emitter_reference_eV=float(emit_ref), injecting_layer=int(inj),
+        injecting_field_MV_cm=field_inj, injecting_drop_eV=drop,
+        injecting_mass=float((data.electron_mass if carrier == "electron" else data.hole_mass)[inj]),
+        injecting_optical_permittivity=float(data.optical_permittivity[inj]),
+        layer_order=layer_order, image_force=bool(image_force), state=state,
+    )
+
+
+def _image_staircase(us, ue, thick, m, layers_in_order, data, emit_lead, coll_lead, floor_eV, slices):
+    """Image-lowered profile as flat slices, geometric refinement near the emitter."""
+    total = float(np.sum(thick))
+    # slice edges: geometric near x = 0 (where the image term varies fastest), then uniform
+    s = np.linspace(0.0, 1.0, slices + 1)
+    x_edges = total * s ** 2
+    edges = np.concatenate(([0.0], np.cumsum(thick)))
+    x_edges = np.unique(np.concatenate((x_edges, edges)))
+    x_mid = 0.5 * (x_edges[1:] + x_edges[:-1])
+    seg = np.clip(np.searchsorted(edges, x_mid, side="right") - 1, 0, len(thick) - 1)
+    frac = (x_mid - edges[seg]) / np.asarray(thick)[seg]
+    u_lin = np.asarray(us)[seg] + frac * (np.asarray(ue)[seg] - np.asarray(us)[seg])
+    eps_inf = np.asarray(data.optical_permittivity)[np.asarray(layers_in_order)[seg]]
+    if not np.all(eps_inf > 0):
+        bad = int(np.asarray(layers_in_order)[seg][~(eps_inf > 0)][0])
+        from solver.errors import CaseError
+
+        raise CaseError(f"layers.{data.names[bad]}.optical_permittivity: not given for this material; "
+                        "the image force needs it (set it as a material override)")
+    u = np.maximum(u_lin - IMAGE_EV_NM / (eps_inf * x_mid), floor_eV)
+    widths = np.diff(x_edges)
+    return _make_barrier(widths, u, u, np.asarray(m)[seg], emit_lead, coll_lead)
+
+
+def barrier_from_profile(x_nm, band_edge_eV, mass, left, right, *, reverse: bool = False,
+                         method: str = "linear"):
+    """A Barrier from a sampled band-edge profile (e.g. a solved band diagram).
+
+    ``x_nm`` increasing sample positions, ``band_edge_eV`` and ``mass`` per
+    sample (mass of the interval starting at that sample is taken as the mean of
+    its two ends unless they are equal). ``method="linear"`` joins the samples
+    by linear pieces (treated exactly by the Airy kernel), ``"staircase"`` uses
+    flat slices at the interval midpoints. ``reverse=True`` lists the profile
+    from the last sample to the first (e.g. flow from the channel to the gate).
+    Discontinuities (band offsets) are represented by two samples at the same
+    x: such zero-width intervals are dropped, leaving a step.
+    """
+    x = np.asarray(x_nm, float)
+    u = np.asarray(band_edge_eV, float)
+    mm = np.asarray(mass, float)
+    if x.ndim != 1 or x.size < 2 or u.shape != x.shape or mm.shape != x.shape:
+        raise ValueError("barrier_from_profile: x_nm, band_edge_eV and mass must be 1-D arrays "
+                         "of equal length >= 2")
+    if np.any(np.diff(x) < 0):
+        raise ValueError("barrier_from_profile: x_nm must be non-decreasing")
+    _check_choice("method", method, ("linear", "staircase"))
+    if reverse:
+        x, u, mm = x[-1] - x[::-1], u[::-1], mm[::-1]
+    width = np.diff(x)
+    keep = width > 0
+    u0, u1 = u[:-1][keep], u[1:][keep]
+    m_int = 0.5 * (mm[:-1] + mm[1:])[keep]
+    if method == "staircase":
+        u0 = u1 = 0.5 * (u0 + u1)
+    return _make_barrier(width[keep], u0, u1, m_int, left, right)
