@@ -1,0 +1,173 @@
+"""Band-diagram and C–V figures (matplotlib on the Agg backend).
+
+The functions take plain arrays and small tuples, not solver objects, so a
+notebook user can draw stored results as easily as fresh ones.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from solver.plots import new_figure, save
+
+__all__ = ["Span", "SubbandCurve", "band_diagram", "cv_figure"]
+
+# Region fills: light, print-safe tints; the dielectrics cycle through three.
+_FILL = {"gate": "#d9d9d9", "channel": "#f3f0e4", "core": "#e4ecf3"}
+_LAYER_FILLS = ("#dcebdc", "#f4e1d2", "#e2dcef")
+_VALLEY_COLORS = ("#1f5fa8", "#c2571a", "#2f8a3b", "#8a3b8f", "#7a6a12", "#3d7f86")
+
+
+@dataclass(frozen=True)
+class Span:
+    """A region of the structure along x: kind "gate" | "layer" | "channel" | "core"."""
+
+    name: str
+    material: str
+    kind: str
+    x_lo_nm: float
+    x_hi_nm: float
+
+
+@dataclass(frozen=True)
+class SubbandCurve:
+    """A subband to draw: its energy and |psi|^2 (any normalisation) on x_nm."""
+
+    label: str
+    energy_eV: float
+    x_nm: np.ndarray
+    density: np.ndarray
+
+
+def band_diagram(path, *, x_nm, conduction_band_eV, valence_band_eV, fermi_level_eV,
+                 spans=(), subbands=(), gate_fermi_level_eV=None, title="",
+                 radial=False, energy_window_eV=None) -> str:
+    """Draw E_c, E_v and E_F across the stack and write a PNG to `path`.
+
+    x_nm, conduction_band_eV, valence_band_eV : node arrays (NaN where a band
+        does not exist, e.g. inside a metal gate)
+    fermi_level_eV : channel Fermi level (dashed across the channel)
+    spans : Span per region; shaded and labelled with its material name
+    subbands : SubbandCurve per state; a horizontal line at its energy and
+        |psi|^2 scaled to a common height, offset at that energy. With
+        subbands a second panel zooms on the channel near the interface.
+    gate_fermi_level_eV : gate Fermi level, dashed across the gate region
+    radial : x is the radius (cylindrical cell)
+    energy_window_eV : (low, high) limits of the full-stack energy axis
+    Returns the path written.
+    """
+    x = np.asarray(x_nm, dtype=float)
+    ec = np.asarray(conduction_band_eV, dtype=float)
+    ev = np.asarray(valence_band_eV, dtype=float)
+    if subbands:
+        fig, (ax, zoom) = new_figure(1, 2, figsize=(11.0, 5.0), width_ratios=[3, 2])
+    else:
+        fig, ax = new_figure(figsize=(8.0, 5.0))
+        zoom = None
+
+    finite = np.concatenate([ec[np.isfinite(ec)], ev[np.isfinite(ev)], [fermi_level_eV]])
+    if gate_fermi_level_eV is not None:
+        finite = np.append(finite, gate_fermi_level_eV)
+    if energy_window_eV is None:
+        lo, hi = float(finite.min()), float(finite.max())
+        pad = 0.06 * (hi - lo if hi > lo else 1.0)
+        energy_window_eV = (lo - pad, hi + pad)
+    window = (x.min(), x.max())
+    _draw(ax, x, ec, ev, fermi_level_eV, spans, subbands, gate_fermi_level_eV,
+          window, energy_window_eV, labels=True)
+    ax.set_xlabel("radius from the axis (nm)" if radial else "depth from the gate (nm)")
+    ax.set_ylabel("energy (eV)")
+    ax.legend(loc="lower right", fontsize=7, framealpha=0.9)
+    if title:
+        ax.set_title(title, fontsize=10)
+
+    if zoom is not None:
+        sx = np.concatenate([np.asarray(sb.x_nm, dtype=float) for sb in subbands])
+        zx = (float(sx.min()), float(sx.max()))
+        inside = (x >= zx[0]) & (x <= zx[1])
+        ec_in = ec[inside & np.isfinite(ec)]
+        levels = [sb.energy_eV for sb in subbands] + [fermi_level_eV]
+        e_lo = min(float(ec_in.min()) if ec_in.size else min(levels), min(levels)) - 0.05
+        e_hi = max(levels) + 0.15
+        _draw(zoom, x, ec, ev, fermi_level_eV, spans, subbands, None, zx, (e_lo, e_hi), labels=False)
+        zoom.set_xlabel("radius (nm)" if radial else "depth (nm)")
+        zoom.set_title("channel near the interface: subbands and |psi|$^2$", fontsize=9)
+        handles, names = zoom.get_legend_handles_labels()
+        keep = [(h, n) for h, n in zip(handles, names) if n not in ("$E_v$",)]
+        zoom.legend(*zip(*keep), loc="upper right", fontsize=7, framealpha=0.9)
+    return save(fig, path)
+
+
+def _draw(ax, x, ec, ev, fermi_level_eV, spans, subbands, gate_fermi_level_eV, x_window,
+          e_window, labels):
+    e_lo, e_hi = e_window
+    layer_count = 0
+    for span in spans:
+        if span.kind == "layer":
+            color = _LAYER_FILLS[layer_count % len(_LAYER_FILLS)]
+            layer_count += 1
+        else:
+            color = _FILL.get(span.kind, "#eeeeee")
+        ax.axvspan(span.x_lo_nm, span.x_hi_nm, color=color, zorder=0, lw=0)
+        lo, hi = max(span.x_lo_nm, x_window[0]), min(span.x_hi_nm, x_window[1])
+        if not labels or hi <= lo:
+            continue
+        narrow = (hi - lo) < 0.08 * (x_window[1] - x_window[0])
+        text = span.material if span.kind in ("gate", "channel", "core") else f"{span.material}\n({span.name})"
+        ax.text(0.5 * (lo + hi), e_hi - 0.02 * (e_hi - e_lo), text, ha="center", va="top",
+                fontsize=7 if narrow else 8, rotation=90 if narrow else 0, color="#333333", zorder=5)
+
+    ax.plot(x, ec, color="#1f3f7a", lw=1.6, label="$E_c$", zorder=3)
+    ax.plot(x, ev, color="#7a1f3f", lw=1.6, label="$E_v$", zorder=3)
+    channel = [s for s in spans if s.kind in ("channel", "core")]
+    gate = [s for s in spans if s.kind == "gate"]
+    xs = ((min(s.x_lo_nm for s in channel), max(s.x_hi_nm for s in channel)) if channel
+          else (x.min(), x.max()))
+    ax.hlines(fermi_level_eV, *xs, colors="#222222", linestyles="--", lw=1.1, label="$E_F$", zorder=4)
+    if gate_fermi_level_eV is not None:
+        xg = (min(s.x_lo_nm for s in gate), max(s.x_hi_nm for s in gate)) if gate else xs
+        ax.hlines(gate_fermi_level_eV, *xg, colors="#555555", linestyles="--", lw=1.1,
+                  label="$E_F$ (gate)", zorder=4)
+    if subbands:
+        names = sorted({s.label for s in subbands})
+        peak = max(float(np.max(s.density)) for s in subbands) or 1.0
+        height = 0.15 * (e_hi - e_lo)
+        seen = set()
+        for sb in subbands:
+            color = _VALLEY_COLORS[names.index(sb.label) % len(_VALLEY_COLORS)]
+            sx = np.asarray(sb.x_nm, dtype=float)
+            dens = np.asarray(sb.density, dtype=float)
+            where = np.nonzero(dens > 1e-3 * dens.max())[0] if dens.max() > 0 else np.arange(sx.size)
+            label = None if sb.label in seen else sb.label
+            seen.add(sb.label)
+            ax.hlines(sb.energy_eV, sx[where.min()], sx[where.max()], colors=color, lw=0.9,
+                      zorder=4, label=label)
+            ax.plot(sx, sb.energy_eV + height * dens / peak, color=color, lw=0.8, alpha=0.85, zorder=4)
+    ax.set_xlim(*x_window)
+    ax.set_ylim(e_lo, e_hi)
+
+
+def cv_figure(path, *, gate_V, curves, oxide_capacitance_F_cm2=None, title="") -> str:
+    """Quasi-static C–V curves overlaid, C in uF/cm^2 against gate voltage.
+
+    curves : {label: capacitance_F_cm2 array (NaN where not computed)}
+    oxide_capacitance_F_cm2 : the stack capacitance drawn as a dotted line
+    Returns the path written.
+    """
+    fig, ax = new_figure(figsize=(6.5, 4.5))
+    v = np.asarray(gate_V, dtype=float)
+    styles = ("-", "--", "-.", ":")
+    for k, (label, c) in enumerate(curves.items()):
+        ax.plot(v, np.asarray(c, dtype=float) * 1e6, styles[k % len(styles)], lw=1.5,
+                color=_VALLEY_COLORS[k % len(_VALLEY_COLORS)], label=label)
+    if oxide_capacitance_F_cm2 is not None:
+        ax.axhline(oxide_capacitance_F_cm2 * 1e6, color="#666666", ls=":", lw=1.0, label="$C_{stack}$")
+    ax.set_xlabel("gate voltage (V)")
+    ax.set_ylabel(r"capacitance ($\mu$F/cm$^2$)")
+    ax.set_ylim(bottom=0)
+    if title:
+        ax.set_title(title, fontsize=10)
+    ax.legend(fontsize=8)
+    ax.grid(alpha=0.3)
+    return save(fig, path)
