@@ -1,0 +1,527 @@
+"""Self-consistent Schrödinger–Poisson solution of a gate stack: `solve` and
+its `Solution`.
+
+Scheme
+------
+The channel next to the dielectric holds a quantum region (automatic width,
+see solver.mesh; `[mesh] quantum_depth_nm` sets it) that starts
+2 nm inside the adjacent dielectric, so that wavefunctions penetrate the
+finite barrier with the dielectric's mass. In it, for every valley set of the
+channel orientation (Si(100): 2-fold with m_z = 0.916, 4-fold with 0.19; the
+hole bands heavy, light and split-off) the effective-mass equation is solved
+with psi = 0 at the box ends, and each subband holds the 2-D Fermi–Dirac
+sheet density
+
+    N_j = g m_d m0 kT / (pi hbar^2) ln(1 + exp((E_F - E_j)/kT))
+
+(Ando, Fowler, Stern, Rev. Mod. Phys. 54, 437 (1982), Sec. III). Beyond the
+box the carriers are classical; over the far 40 % of the box the quantum
+density is handed over smoothly to the classical one (weights cos^2), which
+keeps the Dirichlet box end from carving an artificial dip into carriers that
+are plentiful there (majority carriers). Dopants are never quantized.
+
+Self-consistency uses the predictor–corrector iteration of A. Trellakis,
+A. T. Galick, A. Pacelli, U. Ravaioli, J. Appl. Phys. 81, 7880 (1997): with the
+states of the potential phi_k, the nonlinear Poisson equation is solved by
+Newton for a quantum density in which every subband energy follows the local
+potential change, E_j(x) = E_j - q (phi(x) - phi_k(x)); the new potential is the
+next phi_k. The outer loop stops when max |phi_{k+1} - phi_k| is below
+`tolerance_V` (default 1e-8 V; each inner Newton solve is converged to 1e-9 V);
+an unconverged solve raises ConvergenceError with the residual history.
+
+Cylindrical cells use the radial operator with l = 0 and count the subbands
+as 2-D sheets on the channel surface (n(r) = R_ch N_j R_j(r)^2 with
+integral R^2 r dr = 1), which holds while the inversion layer is thin compared
+with the radius.
+
+Sign conventions of the outputs
+-------------------------------
+surface_potential_V   phi at the dielectric/channel interface (phi = 0 in the
+                      neutral channel): band bending, positive toward inversion
+                      of p-type.
+layer_fields_MV_cm    field component pointing from the gate toward the
+                      channel (positive for a gate above flat band), at the
+                      channel-side edge of each layer, gate first.
+layer_voltages_V      phi(gate side) - phi(channel side) of each layer.
+energies              eV on the vacuum scale of solver.electrostatics; the
+                      channel Fermi level is fermi_level_eV.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.special import expit
+
+from solver import statistics as stat
+from solver.electrostatics import Poisson, QuantumCharge
+from solver.errors import ConvergenceError, ConvergenceRecord
+from solver.mesh import Structure, structure_from_case
+from solver.schrodinger import Hamiltonian
+from solver.units import (
+    BOLTZMANN_J_K,
+    C_PER_M2_TO_C_PER_CM2,
+    EV_TO_J,
+    M_TO_NM,
+    PER_M2_TO_PER_CM2,
+    PER_M3_TO_PER_CM3,
+    Q_C,
+    V_PER_M_TO_MV_PER_CM,
+)
+
+__all__ = ["Solution", "solve", "solve_structure", "prepare"]
+
+OUTER_TOLERANCE_V = 1e-8
+MAX_OUTER_ITERATIONS = 30
+SUBBANDS_REPORTED = 10      # lowest subbands per valley set listed in Solution.subbands
+TAIL_KT = 12.0              # states are added until the highest lies this far above max(E_F, E_0)
+
+
+def _readonly(a):
+    a = np.array(a, dtype=float)
+    a.flags.writeable = False
+    return a
+
+
+@dataclass(frozen=True)
+class Solution:
+    """Self-consistent electrostatics of a cell at one gate voltage (arrays read-only)."""
+
+    x_nm: np.ndarray
+    potential_V: np.ndarray
+    conduction_band_eV: np.ndarray
+    valence_band_eV: np.ndarray
+    fermi_level_eV: float
+    electron_density_cm3: np.ndarray
+    hole_density_cm3: np.ndarray
+    surface_potential_V: float
+    semiconductor_charge_C_cm2: float
+    layer_fields_MV_cm: tuple
+    subbands: tuple
+    iterations: int
+    # beyond the contract
+    gate_V: float
+    quantum: bool
+    statistics: str
+    geometry: str
+    temperature_K: float
+    layer_names: tuple
+    layer_materials: tuple
+    interfaces_nm: tuple
+    layer_voltages_V: tuple
+    layer_conduction_band_eV: tuple     # per layer (gate-side, channel-side) edge, gate first
+    layer_valence_band_eV: tuple
+    gate_fermi_level_eV: float
+    flatband_V: float
+    inversion_charge_cm2: float
+    majority_excess_cm2: float
+    electron_sheet_cm2: float
+    hole_sheet_cm2: float
+    gate_charge_C_cm2: float
+    interface_trap_charge_C_cm2: float
+    charge_centroid_nm: float
+    wavefunctions: np.ndarray
+    subband_valleys: tuple
+    convergence: ConvergenceRecord
+    charge_residual: float
+    charge_residual_unit: str = "C/cm^2"
+    newton_iterations: int = 0
+    minority_carrier: str = "electrons"
+    extra: dict = field(default_factory=dict)
+
+    @property
+    def field_MV_cm(self) -> np.ndarray:
+        """Field at the link midpoints toward +x (planar) / outward (cylinder)."""
+        return -np.diff(self.potential_V) / np.diff(self.x_nm) * 1e9 * V_PER_M_TO_MV_PER_CM
+
+
+# --------------------------------------------------------------------------- quantum channel
+class _Valleys:
+    """Prepared Schrödinger operators of one carrier type in the box."""
+
+    def __init__(self, structure: Structure, poisson: Poisson, carrier: str):
+        s = structure
+        self.carrier = carrier
+        q = s.quantum_nodes
+        self.nodes = q
+        spec = s.channel.spec
+        bands = spec.electron_valleys if carrier == "e" else spec.hole_bands
+        regions = [s.regions[k] for k in s.node_region[q]]
+        in_semi = np.array([r.kind == "channel" for r in regions])
+        chi = np.array([r.affinity_eV for r in regions]) * EV_TO_J
+        gap = np.array([r.gap_eV for r in regions]) * EV_TO_J
+        diel_mass = np.array([r.electron_mass if carrier == "e" else r.hole_mass for r in regions])
+        x = s.x_m[q]
+        radial = s.geometry == "cylindrical"
+        self.valleys = []
+        for v in bands:
+            mass = np.where(in_semi, v.quantization_mass, diel_mass)
+            ham = Hamiltonian.radial(x, mass, 0) if radial else Hamiltonian.planar(x, mass)
+            dos = float(stat.subband_dos_m2_J(v.degeneracy, v.dos_mass))
+            self.valleys.append(dict(valley=v, ham=ham, dos=dos, count=min(8, ham.unknowns.size)))
+        # potential energy at phi = 0: electrons E_c0 + offset, holes -(E_v0) + offset
+        self.u0 = -chi if carrier == "e" else chi + gap
+        self.sign = 1.0 if carrier == "e" else -1.0   # U = u0 - sign q phi
+        self.scale = s.reference_area if radial else 1.0
+        self.kT = poisson.kT
+
+    def solve(self, phi_box, fermi_J):
+        """States of every valley set: list of (valley, E_J (electron energy
+        scale), psi2 (box nodes x k) as density per unit sheet density, dos)."""
+        u_base = self.u0 - self.sign * Q_C * phi_box
+        ef = fermi_J if self.carrier == "e" else -fermi_J  # hole-energy scale
+        out = []
+        for d in self.valleys:
+            v, ham = d["valley"], d["ham"]
+            u = u_base + v.offset_eV * EV_TO_J
+            k = d["count"]
+            while True:
+                E, psi = ham.solve(u, k)
+                if E[-1] >= max(ef, E[0]) + TAIL_KT * self.kT or k >= ham.unknowns.size:
+                    break
+                k = min(2 * k, ham.unknowns.size)
+            d["count"] = k
+            out.append((v, E, psi * psi * self.scale, d["dos"]))
+        return out
+
+
+class _QuantumChannel:
+    def __init__(self, structure: Structure, poisson: Poisson):
+        self.s = structure
+        self.p = poisson
+        q = structure.quantum_nodes
+        self.nodes = q
+        self.blend = structure.quantum_blend
+        self.weight = self.blend * (structure.vol_left + structure.vol_right)[q]
+        self.classical_weight = 1.0 - self.blend
+        self.electrons = _Valleys(structure, poisson, "e")
+        self.holes = _Valleys(structure, poisson, "h")
+        self.kT = poisson.kT
+
+    def states(self, phi):
+        ef = self.p.channel_fermi_J
+        pb = phi[self.nodes]
+        return self.electrons.solve(pb, ef), self.holes.solve(pb, ef)
+
+    @staticmethod
+    def _stack(states):
+        E = np.concatenate([s[1] for s in states])
+        psi2 = np.concatenate([s[2] for s in states], axis=1)
+        dos = np.concatenate([np.full(s[1].size, s[3]) for s in states])
+        return E, psi2, dos
+
+    def charge_model(self, states, phi_ref, frozen=False) -> QuantumCharge:
+        """Trellakis density for the box: subband energies follow the local
+        potential change phi - phi_ref (or stay put when `frozen`)."""
+        e_states, h_states = states
+        Ee, psi_e, dos_e = self._stack(e_states)
+        Eh, psi_h, dos_h = self._stack(h_states)
+        kT = self.kT
+        ef = self.p.channel_fermi_J
+        ref = phi_ref[self.nodes].copy()
+        # constant parts of the exponents: electrons (E_F - E_j)/kT, holes (-E_F - lambda_j)/kT
+        ae = (ef - Ee)[None, :] / kT
+        ah = (-ef - Eh)[None, :] / kT
+        qkT = Q_C / kT
+        if frozen:
+            n0 = (psi_e * (dos_e * kT * np.logaddexp(0.0, ae))).sum(axis=1)
+            p0 = (psi_h * (dos_h * kT * np.logaddexp(0.0, ah))).sum(axis=1)
+            rho0 = Q_C * (p0 - n0)
+            zero = np.zeros_like(rho0)
+
+            def density(phi_box):
+                return rho0, zero
+        else:
+            def density(phi_box):
+                shift = (phi_box - ref)[:, None] * qkT
+                xe = ae + shift
+                xh = ah - shift
+                n = (psi_e * (dos_e * kT) * np.logaddexp(0.0, xe)).sum(axis=1)
+                dn = (psi_e * dos_e * expit(xe)).sum(axis=1) * Q_C
+                p = (psi_h * (dos_h * kT) * np.logaddexp(0.0, xh)).sum(axis=1)
+                dp = -(psi_h * dos_h * expit(xh)).sum(axis=1) * Q_C
+                return Q_C * (p - n), Q_C * (dp - dn)
+        return QuantumCharge(self.nodes, self.weight, self.classical_weight, density)
+
+    def populations(self, states):
+        """Per valley: (carrier, valley, E_J on the electron scale, N_m2 per
+        subband, psi2)."""
+        ef = self.p.channel_fermi_J
+        kT = self.kT
+        out = []
+        e_states, h_states = states
+        for v, E, psi2, dos in e_states:
+            out.append(("e", v, E, dos * kT * np.logaddexp(0.0, (ef - E) / kT), psi2))
+        for v, E, psi2, dos in h_states:
+            out.append(("h", v, -E, dos * kT * np.logaddexp(0.0, (-ef - E) / kT), psi2))
+        return out
+
+
+# --------------------------------------------------------------------------- preparation cache
+@dataclass(eq=False)
+class Prepared:
+    """A structure with its Poisson problem and quantum operators, reusable
+    across gate voltages (a sweep shares one mesh)."""
+
+    structure: Structure
+    poisson: Poisson
+    quantum: _QuantumChannel | None
+    statistics: str
+    layer_names: tuple
+    layer_materials: tuple
+
+
+_CACHE: dict = {}
+
+
+def prepare(case_or_structure, statistics: str = "fermi-dirac", quantum: bool = True) -> Prepared:
+    """Build (or reuse) the mesh, Poisson problem and Schrödinger operators."""
+    if isinstance(case_or_structure, Structure):
+        s = case_or_structure
+        key = (id(s), statistics, quantum)
+        hit = _CACHE.get(key)
+        if hit is not None and hit[0] is s:
+            return hit[1]
+    else:
+        key = (id(case_or_structure), statistics, quantum)
+        hit = _CACHE.get(key)
+        if hit is not None and hit[0] is case_or_structure:
+            return hit[1]
+        s = structure_from_case(case_or_structure)
+    P = Poisson(s, statistics)
+    qc = _QuantumChannel(s, P) if quantum else None
+    names = tuple(s.regions[k].name for k in s.layer_regions)
+    mats = tuple(s.regions[k].material for k in s.layer_regions)
+    prep = Prepared(s, P, qc, statistics, names, mats)
+    if len(_CACHE) > 16:
+        _CACHE.clear()
+    _CACHE[key] = (case_or_structure, prep)
+    return prep
+
+
+# --------------------------------------------------------------------------- solve
+def solve(case, gate_V=None, quantum=True, statistics="fermi-dirac") -> Solution:
+    """Self-consistent electrostatics of `case` at `gate_V` (default: the
+    case's bias.gate_V). `quantum=False`: classical carriers everywhere;
+    `statistics="boltzmann"` for Boltzmann carriers. Raises ConvergenceError
+    when the solve does not converge."""
+    if gate_V is None:
+        gate_V = case.bias.gate_V
+    gate_V = float(gate_V)
+    if not math.isfinite(gate_V):
+        raise ValueError(f"gate_V must be finite, got {gate_V}")
+    prep = prepare(case, statistics, bool(quantum))
+    return solve_structure(prep, gate_V, quantum=bool(quantum))
+
+
+def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=None,
+                    tolerance_V: float = OUTER_TOLERANCE_V,
+                    max_iterations: int = MAX_OUTER_ITERATIONS,
+                    scheme: str = "predictor-corrector", relaxation: float = 0.3) -> Solution:
+    """Solve a prepared structure. `phi0`: initial potential (continuation).
+    `scheme="under-relaxed"` (plain iteration phi <- phi + a (P[n(phi)] - phi),
+    a = `relaxation`) exists as the baseline of the benchmarks."""
+    P = prep.poisson
+    s = prep.structure
+    newton_total = 0
+    if phi0 is None or not quantum:
+        phi, rec = P.solve(gate_V, phi0)
+        newton_total += rec.iterations
+    else:
+        phi = np.array(phi0, dtype=float)
+    if not quantum:
+        return _solution(prep, gate_V, phi, None, rec, rec.iterations, newton_total, False)
+    qc = prep.quantum
+    if qc is None:
+        raise ValueError("this structure was prepared without quantum operators")
+    history = []
+    converged = False
+    states = None
+    it = 0
+    for it in range(1, max_iterations + 1):
+        states = qc.states(phi)
+        if scheme == "predictor-corrector":
+            model = qc.charge_model(states, phi)
+            new, rec = P.solve(gate_V, phi, model, raise_on_failure=False)
+        elif scheme == "under-relaxed":
+            model = qc.charge_model(states, phi, frozen=True)
+            target, rec = P.solve(gate_V, phi, model, raise_on_failure=False)
+            new = phi + relaxation * (target - phi)
+        else:
+            raise ValueError(f"scheme must be 'predictor-corrector' or 'under-relaxed', got {scheme!r}")
+        newton_total += rec.iterations
+        if not rec.converged:
+            history.append(float("nan"))
+            break
+        delta = float(np.abs(new - phi).max())
+        history.append(delta)
+        phi = new
+        if delta <= tolerance_V:
+            converged = True
+            break
+    record = ConvergenceRecord(
+        converged=converged, iterations=it, residual_history=tuple(history),
+        message=("converged" if converged else
+                 f"Schrödinger–Poisson did not reach {tolerance_V:g} V in {it} iterations"
+                 + ("" if rec.converged else " (inner Newton failed)")),
+        residual_unit="V", extra={"newton_iterations": newton_total, "scheme": scheme})
+    if not converged:
+        raise ConvergenceError(
+            f"Schrödinger–Poisson at gate_V = {gate_V:g} V did not converge: residual history "
+            f"{', '.join(f'{h:.2e}' for h in history[-5:])} V", record)
+    states = qc.states(phi)
+    return _solution(prep, gate_V, phi, states, record, it, newton_total, True)
+
+
+# --------------------------------------------------------------------------- outputs
+def _solution(prep, gate_V, phi, states, record, iterations, newton_total, quantum) -> Solution:
+    s, P = prep.structure, prep.poisson
+    n_nodes = s.size
+    kT = P.kT
+    regions = [s.regions[k] for k in s.node_region]
+    chi = np.array([r.affinity_eV for r in regions])
+    gap = np.array([r.gap_eV for r in regions])
+    ec = -chi - phi
+    ev = ec - gap
+    sheet = s.reference_area
+    vol_full = s.vol_left + s.vol_right
+
+    # carrier densities at the nodes (per m^3) and sheet densities
+    n = np.zeros(n_nodes)
+    p = np.zeros(n_nodes)
+    e_count = 0.0
+    h_count = 0.0
+    sc_charge = 0.0
+    ch = s.channel
+    cw = np.ones(n_nodes)
+    qc = prep.quantum if quantum else None
+    if qc is not None:
+        cw[qc.nodes] = qc.classical_weight
+    dens = P.semiconductor_densities(phi, gate_V)
+    p_bulk = 0.0
+    for d in dens:
+        nodes = d["nodes"]
+        w = cw[nodes] if d["role"] == "channel" else 1.0
+        n[nodes] += d["n"] * w
+        p[nodes] += d["p"] * w
+        if d["role"] == "channel":
+            e_count += float(np.sum(d["n"] * w * d["vol"]))
+            h_count += float(np.sum(d["p"] * w * d["vol"]))
+            sc_charge += Q_C * float(np.sum(d["vol"] * (d["nd"] - d["na"])))
+    # neutral majority density of the channel
+    spec = ch.spec
+    from solver.statistics import electron_density, hole_density
+    ec0 = -spec.affinity_eV * EV_TO_J
+    n_bulk = float(electron_density(ec0, P.channel_fermi_J, spec.conduction_dos_m3, P.T, P.statistics)[0])
+    p_bulk = float(hole_density(ec0 - spec.gap_eV * EV_TO_J, P.channel_fermi_J, spec.valence_dos_m3,
+                                P.T, P.statistics)[0])
+    subbands, wavefunctions, valleys_out = [], [], []
+    if qc is not None:
+        pops = qc.populations(states)
+        nq = np.zeros(qc.nodes.size)
+        pq = np.zeros(qc.nodes.size)
+        for carrier, v, E, N, psi2 in pops:
+            dens_q = psi2 @ N
+            if carrier == "e":
+                nq += dens_q
+            else:
+                pq += dens_q
+            k = min(SUBBANDS_REPORTED, E.size)
+            norm = _psi2_normalisation(s, qc.nodes, psi2[:, :k])
+            for j in range(k):
+                subbands.append((v.label, float(E[j] / EV_TO_J), float(N[j] * PER_M2_TO_PER_CM2)))
+                col = np.zeros(n_nodes)
+                col[qc.nodes] = psi2[:, j] * norm[j]
+                wavefunctions.append(col)
+                valleys_out.append(v.label)
+        n[qc.nodes] += qc.blend * nq
+        p[qc.nodes] += qc.blend * pq
+        e_count += float(np.sum(qc.weight * nq))
+        h_count += float(np.sum(qc.weight * pq))
+    sc_charge += Q_C * (h_count - e_count)
+    e_sheet = e_count / sheet
+    h_sheet = h_count / sheet
+    if spec.acceptors_m3 >= spec.donors_m3:
+        minority, inv, maj_bulk, maj_count = "electrons", e_sheet, p_bulk, h_count
+    else:
+        minority, inv, maj_bulk, maj_count = "holes", h_sheet, n_bulk, e_count
+    ch_nodes = ch.nodes
+    majority_excess = (maj_count - maj_bulk * float(np.sum(ch.volume))) / sheet
+
+    # centroid of the minority carriers from the dielectric/channel interface
+    dist = s.channel_side_sign * (s.x_m - s.x_m[s.interface_node])
+    carriers = n if minority == "electrons" else p
+    wts = carriers * np.where(np.isin(np.arange(n_nodes), ch_nodes), 1.0, 0.0) * vol_full
+    if qc is not None:
+        wts[qc.nodes] = carriers[qc.nodes] * vol_full[qc.nodes]
+    centroid = float(np.sum(wts * dist) / np.sum(wts)) * M_TO_NM if np.sum(wts) > 0 else float("nan")
+
+    # interface traps, gate charge, residual
+    q_it, _ = P.interface_trap_charge(phi[s.interface_node], gate_V)
+    model = qc.charge_model(states, phi) if qc is not None else None
+    Q, _ = P.charge(phi, gate_V, model)
+    G, _ = P.gradient(phi, gate_V, model)
+    free = P._free
+    residual = float(np.abs(G[free]).max()) / sheet * C_PER_M2_TO_C_PER_CM2
+    gsr = s.gate_semi
+    q_total = float(Q.sum())
+    if gsr is not None:
+        q_gate_semi = float(np.sum(Q[gsr.nodes] - s.fixed_charge[gsr.nodes]))
+        gate_charge = -(q_total - q_gate_semi)
+    else:
+        gate_charge = -q_total
+
+    # layers, gate first
+    fields, volts, cb, vb = [], [], [], []
+    for k in s.layer_regions:
+        R = s.regions[k]
+        lo, hi = R.lo, R.hi
+        if s.geometry == "planar":
+            g_node, c_node = lo, hi
+            e = -(phi[hi] - phi[hi - 1]) / (s.x_m[hi] - s.x_m[hi - 1])
+        else:
+            g_node, c_node = hi, lo
+            r0, r1 = s.x_m[lo], s.x_m[lo + 1]
+            e = (phi[lo + 1] - phi[lo]) / (r0 * math.log(r1 / r0))
+        fields.append(float(e * V_PER_M_TO_MV_PER_CM))
+        volts.append(float(phi[g_node] - phi[c_node]))
+        cb.append((float(-R.affinity_eV - phi[g_node]), float(-R.affinity_eV - phi[c_node])))
+        vb.append((float(-R.affinity_eV - R.gap_eV - phi[g_node]),
+                   float(-R.affinity_eV - R.gap_eV - phi[c_node])))
+
+    wf = np.array(wavefunctions).T if wavefunctions else np.zeros((n_nodes, 0))
+    fermi_eV = P.channel_fermi_J / EV_TO_J
+    return Solution(
+        x_nm=_readonly(s.x_m * M_TO_NM), potential_V=_readonly(phi),
+        conduction_band_eV=_readonly(ec), valence_band_eV=_readonly(ev),
+        fermi_level_eV=float(fermi_eV),
+        electron_density_cm3=_readonly(n * PER_M3_TO_PER_CM3),
+        hole_density_cm3=_readonly(p * PER_M3_TO_PER_CM3),
+        surface_potential_V=float(phi[s.interface_node]),
+        semiconductor_charge_C_cm2=sc_charge / sheet * C_PER_M2_TO_C_PER_CM2,
+        layer_fields_MV_cm=tuple(fields), subbands=tuple(subbands), iterations=int(iterations),
+        gate_V=float(gate_V), quantum=bool(quantum), statistics=P.statistics, geometry=s.geometry,
+        temperature_K=P.T, layer_names=prep.layer_names, layer_materials=prep.layer_materials,
+        interfaces_nm=tuple(float(x * M_TO_NM) for x in s.interfaces_m),
+        layer_voltages_V=tuple(volts), layer_conduction_band_eV=tuple(cb),
+        layer_valence_band_eV=tuple(vb),
+        gate_fermi_level_eV=float(fermi_eV - gate_V), flatband_V=float(P.flatband_V),
+        inversion_charge_cm2=float(inv * PER_M2_TO_PER_CM2),
+        majority_excess_cm2=float(majority_excess * PER_M2_TO_PER_CM2),
+        electron_sheet_cm2=float(e_sheet * PER_M2_TO_PER_CM2),
+        hole_sheet_cm2=float(h_sheet * PER_M2_TO_PER_CM2),
+        gate_charge_C_cm2=gate_charge / sheet * C_PER_M2_TO_C_PER_CM2,
+        interface_trap_charge_C_cm2=q_it / sheet * C_PER_M2_TO_C_PER_CM2,
+        charge_centroid_nm=centroid, wavefunctions=_readonly(wf), subband_valleys=tuple(valleys_out),
+        convergence=record, charge_residual=residual, newton_iterations=int(newton_total),
+        minority_carrier=minority,
+    )
+
+
+def _psi2_normalisation(s, nodes, psi2):
+    """Factors making the trapezoid integral of |psi|^2 over x_nm equal to 1."""
+    x = s.x_m[nodes] * M_TO_NM
+    integral = np.trapezoid(psi2, x, axis=0)
+    with np.errstate(divide="ignore"):
+        return np.where(integral > 0, 1.0 / integral, 0.0)
