@@ -229,6 +229,42 @@ def airy_negative_asymptotic(x, zeta, u, v):
 
 
 @numba.njit(cache=True, error_model="numpy")
+def _two_product(a, b):
+    """a*b = p + e exactly (Dekker, Veltkamp splitting; no FMA needed)."""
+    p = a * b
+    c = 134217729.0 * a
+    a_hi = c - (c - a)
+    a_lo = a - a_hi
+    c = 134217729.0 * b
+    b_hi = c - (c - b)
+    b_lo = b - b_hi
+    e = ((a_hi * b_hi - p) + a_hi * b_lo + a_lo * b_hi) + a_lo * b_lo
+    return p, e
+
+
+_TWO_THIRDS_HI = 2.0 / 3.0
+_TWO_THIRDS_LO = float((Decimal(2) / Decimal(3)) - Decimal(_TWO_THIRDS_HI))
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _zeta_double_double(x):
+    """2/3 x^(3/2) as hi + lo to about 1e-30 relative (for x up to ~1e100).
+
+    The phase of Ai(-x) is zeta + pi/4; rounding zeta to double would cost an
+    absolute phase error of eps*zeta (5e-12 at x = 1000).
+    """
+    s = math.sqrt(x)
+    p, e = _two_product(s, s)
+    r = ((x - p) - e) / (2.0 * s)              # sqrt(x) = s + r
+    p2, e2 = _two_product(x, s)
+    lo = e2 + x * r                            # x^(3/2) = p2 + lo
+    p3, e3 = _two_product(_TWO_THIRDS_HI, p2)
+    lo3 = e3 + _TWO_THIRDS_HI * lo + _TWO_THIRDS_LO * p2
+    hi = p3 + lo3
+    return hi, lo3 - (hi - p3)
+
+
+@numba.njit(cache=True, error_model="numpy")
 def airy_scaled_kernel(z, anchors, u, v):
     """(ai, aip, bi, bip, zeta_plus) at real z.
 
@@ -248,11 +284,17 @@ def airy_scaled_kernel(z, anchors, u, v):
             return ai * e, aip * e, bi / e, bip / e, zeta
         return ai, aip, bi, bip, 0.0
     x = -z
-    zeta = (2.0 / 3.0) * x * math.sqrt(x)
-    P, Q, Pv, Qv = airy_negative_asymptotic(x, zeta, u, v)
-    chi = zeta + _QUARTER_PI
-    s = math.sin(chi)
-    c = math.cos(chi)
+    zeta_hi, zeta_lo = _zeta_double_double(x)
+    P, Q, Pv, Qv = airy_negative_asymptotic(x, zeta_hi, u, v)
+    # chi = zeta + pi/4 with zeta in double-double: libm reduces the exact
+    # double zeta_hi, the small remainder goes through the addition formula
+    delta = zeta_lo + _QUARTER_PI
+    sh = math.sin(zeta_hi)
+    ch = math.cos(zeta_hi)
+    sd = math.sin(delta)
+    cd = math.cos(delta)
+    s = sh * cd + ch * sd
+    c = ch * cd - sh * sd
     q = math.sqrt(math.sqrt(x))
     w = _INV_SQRT_PI
     return (w / q * (s * P - c * Q), -w * q * (c * Pv + s * Qv),

@@ -63,6 +63,110 @@ def _flat_layer(q, mu, d):
     return 1.0, mu * d, 0.0, 1.0, 0.0
 
 
+# Constants of the branch-free flat-layer evaluation (Cody-Waite splits: the
+# high parts have trailing zero bits, so n * HI is exact for the n that occur).
+_LN2_HI = 6.93147180369123816490e-01
+_LN2_LO = 1.90821492927058770002e-10
+_INV_LN2 = 1.44269504088896338700e+00
+_PIO2_1 = 1.57079632673412561417e+00
+_PIO2_2 = 6.07710050650619224932e-11
+_PIO2_3 = 2.02226624879595063154e-21
+_TWO_OVER_PI = 6.36619772367581382433e-01
+# Above this phase k d the three-part reduction above loses accuracy; such
+# layers use the library sin/cos instead (see transfer_product).
+POLY_PHASE_MAX = 1.0e5
+# exp(-2x) < 4.3e-18 for x > 20: cosh and sinh are exp(x)/2 to round-off
+_EXP_CUT = 40.0
+
+
+@numba.njit(cache=True, error_model="numpy", inline="always")
+def _flat_layer_poly(q, mu, d):
+    """Branch-free twin of `_flat_layer` (polynomials instead of libm calls).
+
+    Both the evanescent (q > 0) and the propagating (q < 0) forms are
+    evaluated and one is selected, so the loop over energies vectorises.
+    exp(-y), 0 <= y <= 40: y = n ln2 + r, |r| <= ln2/2, Taylor series of
+    exp(-r) - 1 to degree 14 (truncation < 5e-18), 2^-n from the bits of n.
+    sin, cos: t = n pi/2 + r, |r| <= pi/4, Taylor to degree 17/18 (< 2e-17).
+    """
+    r = math.sqrt(abs(q)) * d
+    # -- evanescent: em = exp(-2r) - 1
+    y = min(2.0 * r, _EXP_CUT)
+    n = math.floor(y * _INV_LN2 + 0.5)
+    t = (y - n * _LN2_HI) - n * _LN2_LO
+    # exp(-t) - 1 = -t (1 - t/2 (1 - t/3 (1 - ... )))
+    p = 1.0 - t / 14.0
+    p = 1.0 - t / 13.0 * p
+    p = 1.0 - t / 12.0 * p
+    p = 1.0 - t / 11.0 * p
+    p = 1.0 - t / 10.0 * p
+    p = 1.0 - t / 9.0 * p
+    p = 1.0 - t / 8.0 * p
+    p = 1.0 - t / 7.0 * p
+    p = 1.0 - t / 6.0 * p
+    p = 1.0 - t / 5.0 * p
+    p = 1.0 - t / 4.0 * p
+    p = 1.0 - t / 3.0 * p
+    p = 1.0 - t / 2.0 * p
+    em_t = -t * p
+    f = 1.0
+    m = n
+    h = math.floor(m * 0.5)
+    f *= 1.0 - 0.5 * (m - 2.0 * h)
+    m = h
+    h = math.floor(m * 0.5)
+    f *= 1.0 - 0.75 * (m - 2.0 * h)
+    m = h
+    h = math.floor(m * 0.5)
+    f *= 1.0 - 0.9375 * (m - 2.0 * h)
+    m = h
+    h = math.floor(m * 0.5)
+    f *= 1.0 - 0.99609375 * (m - 2.0 * h)
+    m = h
+    h = math.floor(m * 0.5)
+    f *= 1.0 - (1.0 - 2.0 ** -16) * (m - 2.0 * h)
+    m = h
+    h = math.floor(m * 0.5)
+    f *= 1.0 - (1.0 - 2.0 ** -32) * (m - 2.0 * h)
+    em = em_t if n == 0.0 else f * (1.0 + em_t) - 1.0
+    ch = 1.0 + 0.5 * em
+    shx = -0.5 * em / r if r > 1e-8 else 1.0 - r
+    # -- propagating: cos r, sin r / r
+    k = math.floor(r * _TWO_OVER_PI + 0.5)
+    w = ((r - k * _PIO2_1) - k * _PIO2_2) - k * _PIO2_3
+    w2 = w * w
+    sp = 1.0 - w2 / (16.0 * 17.0)
+    sp = 1.0 - w2 / (14.0 * 15.0) * sp
+    sp = 1.0 - w2 / (12.0 * 13.0) * sp
+    sp = 1.0 - w2 / (10.0 * 11.0) * sp
+    sp = 1.0 - w2 / (8.0 * 9.0) * sp
+    sp = 1.0 - w2 / (6.0 * 7.0) * sp
+    sp = 1.0 - w2 / (4.0 * 5.0) * sp
+    sp = 1.0 - w2 / (2.0 * 3.0) * sp
+    sw = w * sp
+    cp = 1.0 - w2 / (17.0 * 18.0)
+    cp = 1.0 - w2 / (15.0 * 16.0) * cp
+    cp = 1.0 - w2 / (13.0 * 14.0) * cp
+    cp = 1.0 - w2 / (11.0 * 12.0) * cp
+    cp = 1.0 - w2 / (9.0 * 10.0) * cp
+    cp = 1.0 - w2 / (7.0 * 8.0) * cp
+    cp = 1.0 - w2 / (5.0 * 6.0) * cp
+    cp = 1.0 - w2 / (3.0 * 4.0) * cp
+    cp = 1.0 - w2 / (1.0 * 2.0) * cp
+    cw = cp
+    quad = k - 4.0 * math.floor(k * 0.25)
+    odd = quad == 1.0 or quad == 3.0
+    s1 = cw if odd else sw
+    c1 = sw if odd else cw
+    sin_r = -s1 if quad >= 2.0 else s1
+    cos_r = -c1 if (quad == 1.0 or quad == 2.0) else c1
+    st = sin_r / r if r > 1e-8 else 1.0
+    evan = q > 0.0
+    diag = ch if evan else cos_r
+    g = shx if evan else st
+    return diag, mu * d * g, q / mu * d * g, diag, (r if evan else 0.0)
+
+
 @numba.njit(cache=True, error_model="numpy")
 def _zeta_difference(z0, z1, lam_d):
     """2/3 (z1^(3/2) - z0^(3/2)) for z0, z1 >= 0 without cancellation, z1 - z0 = lam_d."""
@@ -151,59 +255,111 @@ def _renormalise(p11, p12, p21, p22, logs):
             logs[j] += math.log(big)
 
 
+_BLOCK = 512   # energies per block: the running products stay in cache across layers
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _update(p11, p12, p21, p22, logs, j, m11, m12, m21, m22, sc):
+    a11 = p11[j]
+    a21 = p21[j]
+    a12 = p12[j]
+    a22 = p22[j]
+    p11[j] = m11 * a11 + m12 * a21
+    p12[j] = m11 * a12 + m12 * a22
+    p21[j] = m21 * a11 + m22 * a21
+    p22[j] = m21 * a12 + m22 * a22
+    logs[j] += sc
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _apply_flat_poly(eps, p11, p12, p21, p22, logs, mu, d, y):
+    """P <- M P for one flat layer over a block of energies (a separate function
+    so that LLVM sees a simple loop and vectorises it)."""
+    for j in range(eps.shape[0]):
+        m11, m12, m21, m22, sc = _flat_layer_poly(mu * (y - eps[j]), mu, d)
+        a11 = p11[j]
+        a21 = p21[j]
+        a12 = p12[j]
+        a22 = p22[j]
+        p11[j] = m11 * a11 + m12 * a21
+        p12[j] = m11 * a12 + m12 * a22
+        p21[j] = m21 * a11 + m22 * a21
+        p22[j] = m21 * a12 + m22 * a22
+        logs[j] += sc
+
+
 @numba.njit(cache=True, error_model="numpy")
 def transfer_product(energy_J, thickness_m, u_start_J, u_end_J, mass_kg, anchors, u, v):
     """Real transfer matrix of the whole stack at each energy.
 
     Returns (p11, p12, p21, p22, logs): the product M_N ... M_1 acting on
     (psi, psi'/m) in reduced units equals exp(logs) [[p11, p12], [p21, p22]].
+    Energies are processed in blocks; inside a block the layers form the
+    outer loop and the energies the inner, vectorised one.
     """
     n = energy_J.shape[0]
+    n_layers = thickness_m.shape[0]
     eps = energy_J * REDUCED_PER_J
     p11 = np.ones(n)
     p12 = np.zeros(n)
     p21 = np.zeros(n)
     p22 = np.ones(n)
     logs = np.zeros(n)
-    for i in range(thickness_m.shape[0]):
+    if n == 0:
+        return p11, p12, p21, p22, logs
+    eps_min = eps.min()
+    eps_max = eps.max()
+    # per-layer constants
+    d_ = np.empty(n_layers)
+    mu_ = np.empty(n_layers)
+    y0_ = np.empty(n_layers)
+    y1_ = np.empty(n_layers)
+    lam_ = np.empty(n_layers)
+    kind = np.empty(n_layers, dtype=np.int64)      # 0 flat (poly), 1 flat (libm), 2 linear (Airy)
+    for i in range(n_layers):
         d = thickness_m[i] / L0_M
         mu = mass_kg[i] / M0_KG
         y0 = u_start_J[i] * REDUCED_PER_J
         y1 = u_end_J[i] * REDUCED_PER_J
-        slope = (y1 - y0) / d
-        ms = mu * slope                   # lambda^3 = 2 m s / hbar^2, lambda with the sign of s
+        ms = mu * (y1 - y0) / d                    # lambda^3 = 2 m s / hbar^2, lambda with the sign of s
         lam = math.copysign(abs(ms) ** (1.0 / 3.0), ms)
+        d_[i] = d
+        mu_[i] = mu
+        y0_[i] = y0
+        y1_[i] = y1
+        lam_[i] = lam
         if abs(lam) * d < FLAT_LAMBDA_D:
             ym = 0.5 * (y0 + y1)
-            for j in range(n):
-                m11, m12, m21, m22, sc = _flat_layer(mu * (ym - eps[j]), mu, d)
-                a11 = p11[j]
-                a21 = p21[j]
-                a12 = p12[j]
-                a22 = p22[j]
-                p11[j] = m11 * a11 + m12 * a21
-                p12[j] = m11 * a12 + m12 * a22
-                p21[j] = m21 * a11 + m22 * a21
-                p22[j] = m21 * a12 + m22 * a22
-                logs[j] += sc
+            y0_[i] = ym
+            qmax = mu * max(abs(ym - eps_min), abs(ym - eps_max))
+            kind[i] = 0 if math.sqrt(qmax) * d < POLY_PHASE_MAX else 1
         else:
-            inv_lam2 = 1.0 / (lam * lam)
-            for j in range(n):
-                z0 = mu * (y0 - eps[j]) * inv_lam2
-                z1 = mu * (y1 - eps[j]) * inv_lam2
-                m11, m12, m21, m22, sc = _sloped_layer(z0, z1, lam, mu, d, anchors, u, v)
-                a11 = p11[j]
-                a21 = p21[j]
-                a12 = p12[j]
-                a22 = p22[j]
-                p11[j] = m11 * a11 + m12 * a21
-                p12[j] = m11 * a12 + m12 * a22
-                p21[j] = m21 * a11 + m22 * a21
-                p22[j] = m21 * a12 + m22 * a22
-                logs[j] += sc
-        if (i + 1) % _RENORM_EVERY == 0:
-            _renormalise(p11, p12, p21, p22, logs)
-    _renormalise(p11, p12, p21, p22, logs)
+            kind[i] = 2
+    for b0 in range(0, n, _BLOCK):
+        b1 = min(n, b0 + _BLOCK)
+        for i in range(n_layers):
+            d = d_[i]
+            mu = mu_[i]
+            y0 = y0_[i]
+            if kind[i] == 0:
+                _apply_flat_poly(eps[b0:b1], p11[b0:b1], p12[b0:b1], p21[b0:b1], p22[b0:b1], logs[b0:b1],
+                                 mu, d, y0)
+            elif kind[i] == 1:
+                for j in range(b0, b1):
+                    m11, m12, m21, m22, sc = _flat_layer(mu * (y0 - eps[j]), mu, d)
+                    _update(p11, p12, p21, p22, logs, j, m11, m12, m21, m22, sc)
+            else:
+                y1 = y1_[i]
+                lam = lam_[i]
+                inv_lam2 = 1.0 / (lam * lam)
+                for j in range(b0, b1):
+                    z0 = mu * (y0 - eps[j]) * inv_lam2
+                    z1 = mu * (y1 - eps[j]) * inv_lam2
+                    m11, m12, m21, m22, sc = _sloped_layer(z0, z1, lam, mu, d, anchors, u, v)
+                    _update(p11, p12, p21, p22, logs, j, m11, m12, m21, m22, sc)
+            if (i + 1) % _RENORM_EVERY == 0:
+                _renormalise(p11[b0:b1], p12[b0:b1], p21[b0:b1], p22[b0:b1], logs[b0:b1])
+        _renormalise(p11[b0:b1], p12[b0:b1], p21[b0:b1], p22[b0:b1], logs[b0:b1])
     return p11, p12, p21, p22, logs
 
 
