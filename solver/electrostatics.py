@@ -60,6 +60,8 @@ from solver.errors import ConvergenceError, ConvergenceRecord
 from solver.mesh import Structure
 from solver.units import BOLTZMANN_J_K, C_PER_M2_TO_C_PER_CM2, EV_TO_J, Q_C
 
+_NO_SEARCH_BELOW_V = 1e-4   # Newton steps smaller than this are taken in full
+
 __all__ = ["Poisson", "QuantumCharge", "thomas_solve", "neutral_fermi_level_J"]
 
 
@@ -321,15 +323,21 @@ class Poisson:
             lower[~free[1:]] = 0.0
             d = thomas_solve(lower, diag, upper, -G)
             d[~free] = 0.0
-            t, G, dQ, searched = self._line_search(phi, d, G, gate_V, quantum)
-            line_searches += searched
-            step = t * np.abs(d).max()
+            full = float(np.abs(d).max())
+            if full <= _NO_SEARCH_BELOW_V:
+                # quadratic convergence region: the full Newton step
+                t = 1.0
+                G, dQ = self.gradient(phi + d, gate_V, quantum)
+                G[~free] = 0.0
+            else:
+                t, G, dQ, searched = self._line_search(phi, d, G, gate_V, quantum)
+                line_searches += searched
             phi = phi + t * d
-            history.append(float(step))
-            if step <= tolerance_V and t == 1.0:
+            history.append(float(t * full))
+            if full <= tolerance_V:
                 converged = True
                 break
-            if not np.isfinite(step):
+            if not np.isfinite(full):
                 break
         G[~free] = 0.0
         residual = float(np.abs(G).max()) / s.reference_area * C_PER_M2_TO_C_PER_CM2
