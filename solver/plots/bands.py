@@ -42,61 +42,92 @@ class SubbandCurve:
 
 def band_diagram(path, *, x_nm, conduction_band_eV, valence_band_eV, fermi_level_eV,
                  spans=(), subbands=(), gate_fermi_level_eV=None, title="",
-                 radial=False, energy_window_eV=None) -> str:
-    """Draw E_c, E_v and E_F across the stack and write a PNG to `path`.
+                 radial=False) -> str:
+    """Draw E_c, E_v and E_F across the structure and write a PNG to `path`.
+
+    Panels: the whole structure; the gate stack with a few nm of channel on
+    the energy scale of the dielectric bands; with subbands, the channel next
+    to the interface with every subband as a horizontal line at its energy
+    and its |psi|^2 scaled to a common height and offset at that energy.
 
     x_nm, conduction_band_eV, valence_band_eV : node arrays (NaN where a band
         does not exist, e.g. inside a metal gate)
     fermi_level_eV : channel Fermi level (dashed across the channel)
-    spans : Span per region; shaded and labelled with its material name
-    subbands : SubbandCurve per state; a horizontal line at its energy and
-        |psi|^2 scaled to a common height, offset at that energy. With
-        subbands a second panel zooms on the channel near the interface.
+    spans : Span per region, x order; shaded and labelled with its material
+    subbands : SubbandCurve per state
     gate_fermi_level_eV : gate Fermi level, dashed across the gate region
     radial : x is the radius (cylindrical cell)
-    energy_window_eV : (low, high) limits of the full-stack energy axis
     Returns the path written.
     """
     x = np.asarray(x_nm, dtype=float)
     ec = np.asarray(conduction_band_eV, dtype=float)
     ev = np.asarray(valence_band_eV, dtype=float)
-    if subbands:
-        fig, (ax, zoom) = new_figure(1, 2, figsize=(11.0, 5.0), width_ratios=[3, 2])
-    else:
-        fig, ax = new_figure(figsize=(8.0, 5.0))
-        zoom = None
+    panels = 3 if subbands else 2
+    fig, axes = new_figure(1, panels, figsize=(4.6 * panels + 0.6, 5.0))
+    xlabel = "radius from the axis (nm)" if radial else "depth from the gate (nm)"
 
-    finite = np.concatenate([ec[np.isfinite(ec)], ev[np.isfinite(ev)], [fermi_level_eV]])
-    if gate_fermi_level_eV is not None:
-        finite = np.append(finite, gate_fermi_level_eV)
-    if energy_window_eV is None:
-        lo, hi = float(finite.min()), float(finite.max())
-        pad = 0.06 * (hi - lo if hi > lo else 1.0)
-        energy_window_eV = (lo - pad, hi + pad)
-    window = (x.min(), x.max())
-    _draw(ax, x, ec, ev, fermi_level_eV, spans, subbands, gate_fermi_level_eV,
-          window, energy_window_eV, labels=True)
-    ax.set_xlabel("radius from the axis (nm)" if radial else "depth from the gate (nm)")
+    whole = (min([x.min()] + [sp.x_lo_nm for sp in spans]), max([x.max()] + [sp.x_hi_nm for sp in spans]))
+    ax = axes[0]
+    _draw(ax, x, ec, ev, fermi_level_eV, spans, (), gate_fermi_level_eV, whole,
+          _energy_window(x, ec, ev, whole, [fermi_level_eV, gate_fermi_level_eV]), labels=False)
+    ax.set_title("whole structure", fontsize=9)
     ax.set_ylabel("energy (eV)")
-    ax.legend(loc="lower right", fontsize=7, framealpha=0.9)
-    if title:
-        ax.set_title(title, fontsize=10)
+    ax.set_xlabel(xlabel)
+    ax.legend(loc="best", fontsize=7, framealpha=0.9)
 
-    if zoom is not None:
+    ax = axes[1]
+    window = _stack_window(spans, whole)
+    _draw(ax, x, ec, ev, fermi_level_eV, spans, (), gate_fermi_level_eV, window,
+          _energy_window(x, ec, ev, window, [fermi_level_eV, gate_fermi_level_eV]), labels=True)
+    ax.set_title("gate stack", fontsize=9)
+    ax.set_xlabel(xlabel)
+
+    if subbands:
+        ax = axes[2]
         sx = np.concatenate([np.asarray(sb.x_nm, dtype=float) for sb in subbands])
         zx = (float(sx.min()), float(sx.max()))
-        inside = (x >= zx[0]) & (x <= zx[1])
-        ec_in = ec[inside & np.isfinite(ec)]
+        inside = (x >= zx[0]) & (x <= zx[1]) & np.isfinite(ec)
         levels = [sb.energy_eV for sb in subbands] + [fermi_level_eV]
-        e_lo = min(float(ec_in.min()) if ec_in.size else min(levels), min(levels)) - 0.05
+        e_lo = min([float(ec[inside].min())] if inside.any() else [] + levels) - 0.05
+        e_lo = min(e_lo, min(levels) - 0.05)
         e_hi = max(levels) + 0.15
-        _draw(zoom, x, ec, ev, fermi_level_eV, spans, subbands, None, zx, (e_lo, e_hi), labels=False)
-        zoom.set_xlabel("radius (nm)" if radial else "depth (nm)")
-        zoom.set_title("channel near the interface: subbands and |psi|$^2$", fontsize=9)
-        handles, names = zoom.get_legend_handles_labels()
-        keep = [(h, n) for h, n in zip(handles, names) if n not in ("$E_v$",)]
-        zoom.legend(*zip(*keep), loc="upper right", fontsize=7, framealpha=0.9)
+        _draw(ax, x, ec, ev, fermi_level_eV, spans, subbands, None, zx, (e_lo, e_hi), labels=False)
+        ax.set_xlabel(xlabel)
+        ax.set_title("channel at the interface: subbands and |psi|$^2$", fontsize=9)
+        handles, names = ax.get_legend_handles_labels()
+        keep = [(h, n) for h, n in zip(handles, names) if n != "$E_v$"]
+        ax.legend(*zip(*keep), loc="upper right", fontsize=7, framealpha=0.9)
+    if title:
+        fig.suptitle(title, fontsize=10)
     return save(fig, path)
+
+
+def _energy_window(x, ec, ev, x_window, levels):
+    inside = (x >= x_window[0]) & (x <= x_window[1])
+    values = [v for v in levels if v is not None]
+    for band in (ec, ev):
+        b = band[inside & np.isfinite(band)]
+        if b.size:
+            values += [float(b.min()), float(b.max())]
+    lo, hi = min(values), max(values)
+    pad = 0.06 * (hi - lo if hi > lo else 1.0)
+    return lo - pad, hi + 0.12 * (hi - lo if hi > lo else 1.0) + pad  # room for the labels
+
+
+def _stack_window(spans, whole):
+    """The dielectric layers with some gate on one side and channel on the other."""
+    layers = [s for s in spans if s.kind == "layer"]
+    if not layers:
+        return whole
+    lo = min(s.x_lo_nm for s in layers)
+    hi = max(s.x_hi_nm for s in layers)
+    t = hi - lo
+    channel = [s for s in spans if s.kind == "channel"]
+    channel_left = bool(channel) and channel[0].x_hi_nm <= lo + 1e-9
+    gate_side, channel_side = max(0.25 * t, 1.5), max(t, 10.0)
+    if channel_left:
+        return max(whole[0], lo - channel_side), min(whole[1], hi + gate_side)
+    return max(whole[0], lo - gate_side), min(whole[1], hi + channel_side)
 
 
 def _draw(ax, x, ec, ev, fermi_level_eV, spans, subbands, gate_fermi_level_eV, x_window,
@@ -114,7 +145,7 @@ def _draw(ax, x, ec, ev, fermi_level_eV, spans, subbands, gate_fermi_level_eV, x
         if not labels or hi <= lo:
             continue
         narrow = (hi - lo) < 0.08 * (x_window[1] - x_window[0])
-        text = span.material if span.kind in ("gate", "channel", "core") else f"{span.material}\n({span.name})"
+        text = span.material if span.kind in ("gate", "channel") else f"{span.material}\n({span.name})"
         ax.text(0.5 * (lo + hi), e_hi - 0.02 * (e_hi - e_lo), text, ha="center", va="top",
                 fontsize=7 if narrow else 8, rotation=90 if narrow else 0, color="#333333", zorder=5)
 
@@ -165,7 +196,9 @@ def cv_figure(path, *, gate_V, curves, oxide_capacitance_F_cm2=None, title="") -
         ax.axhline(oxide_capacitance_F_cm2 * 1e6, color="#666666", ls=":", lw=1.0, label="$C_{stack}$")
     ax.set_xlabel("gate voltage (V)")
     ax.set_ylabel(r"capacitance ($\mu$F/cm$^2$)")
-    ax.set_ylim(bottom=0)
+    top = max([float(np.nanmax(np.asarray(c, dtype=float))) for c in curves.values()]
+              + [oxide_capacitance_F_cm2 or 0.0]) * 1e6
+    ax.set_ylim(0.0, 1.08 * top if top > 0 else None)
     if title:
         ax.set_title(title, fontsize=10)
     ax.legend(fontsize=8)
