@@ -159,7 +159,12 @@ def graded_points(length: float, h_start: float | None, h_end: float | None,
     if not length > 0:
         raise ValueError(f"segment length must be > 0, got {length}")
     slope = max(growth - 1.0, 1e-6)
-    s = np.linspace(0.0, length, 4001)
+    # samples cluster geometrically at both ends so the integral of 1/h is
+    # resolved even where h is far below length/4000
+    h_small = min(h for h in (h_start, h_end, h_max) if h is not None)
+    tail = np.geomspace(min(1e-3 * h_small, 1e-3 * length), length, 1500)
+    s = np.unique(np.concatenate((np.linspace(0.0, length, 2001), tail, length - tail, [0.0])))
+    s = s[(s >= 0.0) & (s <= length)]
     h = np.full_like(s, h_max)
     if h_start is not None:
         h = np.minimum(h, h_start + slope * s)
