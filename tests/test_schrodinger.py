@@ -64,6 +64,25 @@ def test_infinite_well_second_order_graded_grid():
     assert np.all(orders(errs) > 1.9)
 
 
+def test_infinite_well_second_order_irregular_grid():
+    # An irregular grid (random spacings up to 3:1 next to each other), refined by
+    # halving every interval: with constant mass the scheme is the linear finite-element
+    # stiffness with a lumped (trapezoid) mass matrix, whose eigenvalues converge at second
+    # order on any mesh (Strang & Fix, An Analysis of the Finite Element Method, Ch. 6,
+    # from memory). Reference: Griffiths Sec. 2.2.
+    mass, L = 0.5, 6.0
+    exact = infinite_well_eV(np.arange(1, 4), mass, L)
+    rng = np.random.default_rng(7)
+    steps = rng.uniform(1.0, 3.0, 60)
+    x = np.concatenate([[0.0], np.cumsum(steps)]) * (L / steps.sum())
+    errs = []
+    for _ in range(3):
+        E, _ = eigenstates(x, np.zeros(x.size), np.full(x.size, mass), 3)
+        errs.append(np.max(np.abs(E - exact) / exact))
+        x = np.sort(np.concatenate([x, 0.5 * (x[:-1] + x[1:])]))
+    assert np.all(orders(errs) > 1.9)
+
+
 # ---------------------------------------------------------------- harmonic oscillator
 def test_harmonic_oscillator():
     # Griffiths 2nd ed., Sec. 2.3: E_n = (n + 1/2) hbar omega for U = m omega^2 x^2 / 2
