@@ -1,0 +1,54 @@
+"""`tunnelstack breakdown`: files written, store layout, terminal table, bad input."""
+from pathlib import Path
+
+import numpy as np
+
+from cli.main import main
+from solver.store import read_run
+
+SMALL = ["--points", "15", "--map-thicknesses", "3", "--map-fields", "4"]
+
+
+def test_writes_store_and_figures(tmp_path, capsys):
+    out = tmp_path / "mos.h5"
+    code = main(["breakdown", "cases/mos-capacitor.toml", "--output", str(out), "--emitter", "gate", *SMALL])
+    assert code == 0
+    text = capsys.readouterr().out
+    assert "regime" in text and "Fowler–Nordheim onset" in text and "direct" in text
+    for name in ("current-field", "fowler-nordheim", "transmission", "ratio-map"):
+        png = tmp_path / f"mos-{name}.png"
+        assert png.stat().st_size > 10_000
+        assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    run = read_run(out)
+    assert "Al" in run["attrs"]["case_text"] and "breakdown" in run["attrs"]["command"]
+    assert run["attrs"]["emitter"] == "gate"
+    bd = run["groups"]["breakdown"]
+    assert bd["current_exact_A_cm2"].units == "A/cm^2"
+    assert bd["current_exact_A_cm2"].dims == ("field_MV_cm",)
+    assert bd["field_MV_cm"].units == "MV/cm"
+    assert np.asarray(bd["field_MV_cm"].values).size == 15
+    m = run["groups"]["map"]
+    assert m["ratio_exact_wkb"].dims == ("thickness_nm", "map_field_MV_cm")
+    assert np.asarray(m["within_factor_2_fn"].values).shape == (3, 4)
+    assert run["groups"]["transmission"]["transmission_exact"].dims == ("spectrum_field_MV_cm", "energy_eV")
+
+
+def test_output_dir_and_quiet(tmp_path, capsys):
+    code = main(["breakdown", "cases/mos-capacitor.toml", "--output-dir", str(tmp_path / "run"),
+                 "--no-map", "--quiet", "--points", "9"])
+    assert code == 0
+    assert capsys.readouterr().out == ""
+    files = sorted(p.name for p in Path(tmp_path / "run").iterdir())
+    assert files == ["breakdown.h5", "current-field.png", "fowler-nordheim.png", "transmission.png"]
+
+
+def test_bad_input_is_one_line_exit_2(tmp_path, capsys):
+    code = main(["breakdown", "cases/mos-capacitor.toml", "--output", str(tmp_path / "x.h5"),
+                 "--field-from", "-3"])
+    err = capsys.readouterr().err
+    assert code == 2 and err.startswith("error: --field-from") and err.count("\n") == 1
+    # positive gate voltages drive no electrons out of the gate
+    code = main(["breakdown", "cases/mos-capacitor.toml", "--output", str(tmp_path / "y.h5"),
+                 "--emitter", "gate", "--gate-from", "2", "--gate-to", "6", "--points", "5", "--no-map"])
+    err = capsys.readouterr().err
+    assert code == 2 and "no point of the sweep emits" in err
