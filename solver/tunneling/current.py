@@ -103,6 +103,7 @@ _MAX_PANEL_EV = 0.05
 _FERMI_STEPS = 2.0 ** np.arange(0, 6)  # panel edges at E_F +- kT * (1, 2, ..., 32)
 _MAX_PANELS = 20000
 _MAX_ROUNDS = 60
+_MIN_PANEL_REL = 1e-13
 
 
 def supply_function_eV(energy_eV, fermi_left_eV, fermi_right_eV, temperature_K):
@@ -378,8 +379,13 @@ def tsu_esaki(barrier, fermi_left_eV, fermi_right_eV, temperature_K, *, model="e
             break
         # bisect the panels that carry more than their share of the allowed error
         share = 0.5 * rtol * abs(total) / a.size if total != 0.0 else 0.0
-        split = err > share
-        split[np.argmax(err)] = True
+        # panels narrower than _MIN_PANEL_REL |E| only resolve the round-off of T(E)
+        splittable = (b - a) > _MIN_PANEL_REL * np.maximum(np.abs(a), 1.0)
+        split = (err > share) & splittable
+        if not split.any():
+            if not splittable.any():
+                break
+            split[np.argmax(np.where(splittable, err, -1.0))] = True
         ms = 0.5 * (a[split] + b[split])
         na = np.concatenate((a[split], ms))
         nb = np.concatenate((ms, b[split]))
