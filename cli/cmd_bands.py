@@ -60,9 +60,10 @@ def layer_table(solution):
 
 
 def shown_subbands(solution, per_valley=3, max_curves=8, floor=1e-3):
-    """Indices of the subbands worth listing and drawing: the lowest
-    `per_valley` of each valley set that hold at least `floor` of the most
-    populated one, at most `max_curves`."""
+    """Indices of the subbands worth listing and drawing: the first
+    `per_valley` of each valley set (the solution lists each set from its
+    band edge up) that hold at least `floor` of the most populated one; at
+    most `max_curves`, the most populated."""
     subbands = solution.subbands
     if not subbands:
         return []
@@ -73,8 +74,9 @@ def shown_subbands(solution, per_valley=3, max_curves=8, floor=1e-3):
             continue
         count[valley] = count.get(valley, 0) + 1
         keep.append(k)
-    keep.sort(key=lambda k: subbands[k][1])
-    return keep[:max_curves]
+    if len(keep) > max_curves:  # the most populated ones, listed in the solution's order
+        keep = sorted(sorted(keep, key=lambda k: -subbands[k][2])[:max_curves])
+    return keep
 
 
 def subband_curves(solution):
@@ -91,7 +93,10 @@ def subband_curves(solution):
             continue
         sl = slice(nz.min(), nz.max() + 1)
         valley, energy, _ = solution.subbands[k]
-        curves.append(SubbandCurve(str(valley), float(energy), x[sl], col[sl]))
+        # a hole subband lies below midgap where its state is concentrated
+        peak = int(np.argmax(col))
+        midgap = 0.5 * (solution.conduction_band_eV[peak] + solution.valence_band_eV[peak])
+        curves.append(SubbandCurve(str(valley), float(energy), x[sl], col[sl], hole=bool(energy < midgap)))
     return curves
 
 

@@ -32,12 +32,14 @@ class Span:
 
 @dataclass(frozen=True)
 class SubbandCurve:
-    """A subband to draw: its energy and |psi|^2 (any normalisation) on x_nm."""
+    """A subband to draw: its energy and |psi|^2 (any normalisation) on x_nm;
+    a hole subband's |psi|^2 hangs below its line (hole energy grows downward)."""
 
     label: str
     energy_eV: float
     x_nm: np.ndarray
     density: np.ndarray
+    hole: bool = False
 
 
 def band_diagram(path, *, x_nm, conduction_band_eV, valence_band_eV, fermi_level_eV,
@@ -94,9 +96,7 @@ def band_diagram(path, *, x_nm, conduction_band_eV, valence_band_eV, fermi_level
         _draw(ax, x, ec, ev, fermi_level_eV, spans, subbands, None, zx, (e_lo, e_hi), labels=False)
         ax.set_xlabel(xlabel)
         ax.set_title("channel at the interface: subbands and |psi|$^2$", fontsize=9)
-        handles, names = ax.get_legend_handles_labels()
-        keep = [(h, n) for h, n in zip(handles, names) if n != "$E_v$"]
-        ax.legend(*zip(*keep), loc="upper right", fontsize=7, framealpha=0.9)
+        ax.legend(loc="upper right", fontsize=7, framealpha=0.9)
     if title:
         fig.suptitle(title, fontsize=10)
     return save(fig, path)
@@ -174,7 +174,7 @@ def _draw(ax, x, ec, ev, fermi_level_eV, spans, subbands, gate_fermi_level_eV, x
             seen.add(sb.label)
             ax.hlines(sb.energy_eV, sx[where.min()], sx[where.max()], colors=color, lw=0.9,
                       zorder=4, label=label)
-            ax.plot(sx, sb.energy_eV + height * dens / peak, color=color, lw=0.8, alpha=0.85, zorder=4)
+            ax.plot(sx, sb.energy_eV + (-height if sb.hole else height) * dens / peak, color=color, lw=0.8, alpha=0.85, zorder=4)
     ax.set_xlim(*x_window)
     ax.set_ylim(e_lo, e_hi)
 
