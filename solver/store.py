@@ -741,6 +741,10 @@ class StudyStore:
                 self._reserves[d] = g[d].shape[0]
         self._completed = g["completed"]
         self._failed = g["failed"]
+        # dataset handles looked up once: a lookup costs as much as a small write
+        names = list(self.plan.outputs) + ["error_type", "error_message", "elapsed_s"]
+        names += [f"{d}_length" for d in self._reserves]
+        self._ds = {name: g[name] for name in names}
 
     def _close_file(self) -> None:
         if self._file is not None:
@@ -789,11 +793,11 @@ class StudyStore:
 
     def write(self, outcome) -> None:
         """Store one finished point (see the crash-safety note above)."""
-        plan, g = self.plan, self._g
+        plan = self.plan
         idx = np.unravel_index(outcome.index, plan.shape)
         ok = not outcome.error_type
+        lengths: dict[str, int] = {}
         if ok:
-            lengths: dict[str, int] = {}
             for name, out in plan.outputs.items():
                 if out.dims:
                     arr = np.asarray(outcome.values[name], dtype=float)
@@ -801,24 +805,23 @@ class StudyStore:
                         lengths[d] = max(lengths.get(d, 0), n)
             if any(n > self._reserves[d] for d, n in lengths.items()):
                 self._grow(lengths)
-                g = self._g
+        ds = self._ds
         for name, out in plan.outputs.items():
-            ds = g[name]
             if not out.dims:
-                ds[idx] = float(outcome.values[name]) if ok else np.nan
+                ds[name][idx] = float(outcome.values[name]) if ok else np.nan
                 continue
             if not ok:
-                ds[idx] = np.nan
+                ds[name][idx] = np.nan
                 continue
             arr = np.asarray(outcome.values[name], dtype=float)
-            full = np.full(ds.shape[len(plan.shape):], np.nan)
+            full = np.full(ds[name].shape[len(plan.shape):], np.nan)
             full[tuple(slice(0, n) for n in arr.shape)] = arr
-            ds[idx] = full
+            ds[name][idx] = full
         for dim in self._reserves:
-            g[f"{dim}_length"][idx] = lengths.get(dim, 0) if ok else 0
-        g["error_type"][idx] = _fixed_bytes(outcome.error_type, ERROR_TYPE_BYTES)
-        g["error_message"][idx] = _fixed_bytes(outcome.error_message, ERROR_MESSAGE_BYTES)
-        g["elapsed_s"][idx] = outcome.elapsed_s
+            ds[f"{dim}_length"][idx] = lengths.get(dim, 0) if ok else 0
+        ds["error_type"][idx] = _fixed_bytes(outcome.error_type, ERROR_TYPE_BYTES)
+        ds["error_message"][idx] = _fixed_bytes(outcome.error_message, ERROR_MESSAGE_BYTES)
+        ds["elapsed_s"][idx] = outcome.elapsed_s
         self._failed[idx] = 0 if ok else 1
         self._file.flush()
         self._completed[idx] = 1

@@ -362,19 +362,12 @@ _KILL_DRIVER = textwrap.dedent("""
         if mode == "before_mask":      # data written and flushed, mask not yet set
             self._completed = KillOnWrite(self._completed, "now")
         elif mode == "mid_data":       # killed among the output writes of the point
-            real = self._g
-            class Group:
-                def __getitem__(_, name):
-                    ds = real[name]
-                    return KillOnWrite(ds, "now") if name == "field_V_nm" else ds
-                def __getattr__(_, name):
-                    return getattr(real, name)
-            self._g = Group()
+            self._ds["field_V_nm"] = KillOnWrite(self._ds["field_V_nm"], "now")
         try:
             original_write(self, outcome)
         finally:
             self._completed = getattr(self._completed, "ds", self._completed)
-            self._g = self._file["study"]
+            self._ds = {k: getattr(v, "ds", v) for k, v in self._ds.items()}
         writes["n"] += 1
 
     store.StudyStore.write = write
