@@ -41,6 +41,9 @@ def spans_of(structure, case):
         material = reg.material
         if reg.kind == "channel":
             material = f"{case.channel.material.name}({case.channel.orientation})"
+        elif reg.kind == "gate":
+            g = case.gate
+            material = f"{'n+' if g.donors_cm3 > g.acceptors_cm3 else 'p+'} poly-{g.material.name}"
         spans.append(Span(reg.name, material, reg.kind, float(x_nm[reg.lo]), float(x_nm[reg.hi])))
     if case.gate.kind == "metal":
         strip = 0.05 * (x_nm[-1] - x_nm[0])
