@@ -42,6 +42,11 @@ def test_bands_writes_store_and_figure(tmp_path, capsys):
     electron = np.isin(sub["valley"].values, ["2-fold", "4-fold"])
     lowest = int(np.argmin(np.where(electron, sub["energy_eV"].values, np.inf)))
     assert sub["valley"].values[lowest] == "2-fold"
+    # the groups open as labelled datasets in xarray (h5netcdf engine)
+    xr = pytest.importorskip("xarray")
+    with xr.open_dataset(out, engine="h5netcdf", group="subbands") as ds:
+        assert ds["probability_density_nm"].dims == ("position_nm", "subband")
+        assert ds["population_cm2"].attrs["units"] == "cm^-2"
 
 
 def test_bands_classical_kirchhoff_and_gauss(tmp_path):
