@@ -1,0 +1,138 @@
+"""Benchmark: the thickness x field breakdown map of the demo cell on one core.
+
+Times `solver.breakdown.breakdown_map` (40 tunnel-oxide thicknesses x 60
+fields; exact and WKB Tsu–Esaki currents, FN and trapezoid closed forms,
+regimes) and reports the share of the time spent in the exact transfer-matrix
+kernel. Baseline in the same run: a plainly correct fixed-grid integration
+(uniform energies, trapezoid rule, the same exact and WKB T(E)) on a subset of
+the map, extrapolated per point; its currents also check the map's accuracy.
+
+    .venv/bin/python benchmarks/bench_breakdown.py [--thicknesses 40] [--fields 60]
+
+Target: the 40 x 60 map under 10 s.
+"""
+from __future__ import annotations
+
+import os
+
+for _var in ("NUMBA_NUM_THREADS", "OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")  # one core
+
+import argparse  # noqa: E402
+import time  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+import numpy as np  # noqa: E402
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+class _Timer:
+    """Wraps a function and adds up the time spent inside it."""
+
+    def __init__(self, fn):
+        self.fn, self.seconds, self.calls = fn, 0.0, 0
+
+    def __call__(self, *args, **kwargs):
+        t = time.perf_counter()
+        try:
+            return self.fn(*args, **kwargs)
+        finally:
+            self.seconds += time.perf_counter() - t
+            self.calls += 1
+
+
+def _baseline_current(sb, model, n_energies=4000):
+    """Tsu–Esaki on a uniform energy grid, trapezoid rule (straightforward reference)."""
+    from solver.tunneling.current import TSU_ESAKI_PREFACTOR_A_CM2_EV2, supply_function_eV
+    from solver.tunneling.exact import transmission
+    from solver.tunneling.wkb import wkb_transmission
+    from solver.units import BOLTZMANN_EV_K
+
+    b = sb.barrier
+    kT = BOLTZMANN_EV_K * sb.temperature_K
+    lo = max(b.left[0], b.right[0])
+    hi = max(max(b.u_start_eV), max(b.u_end_eV), sb.fermi_left_eV, sb.fermi_right_eV) + 40 * kT
+    e = np.linspace(lo, hi, n_energies)
+    t = (transmission if model == "exact" else wkb_transmission)(b, e)
+    s = supply_function_eV(e, sb.fermi_left_eV, sb.fermi_right_eV, sb.temperature_K)
+    return TSU_ESAKI_PREFACTOR_A_CM2_EV2 * b.left[1] * np.trapezoid(t * s, e)
+
+
+def main():
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--thicknesses", type=int, default=40)
+    ap.add_argument("--fields", type=int, default=60)
+    args = ap.parse_args()
+
+    import solver.tunneling.exact as exact
+    from solver.breakdown import (BreakdownSettings, _barrier_at, _state_for_field, breakdown_map,
+                                  default_fields_MV_cm)
+    from solver.case import load_case
+    from solver.tunneling.stack import stack_data
+
+    data = stack_data(load_case(ROOT / "cases" / "demo-cell.toml"))
+    settings = BreakdownSettings(rtol=1e-3)
+    t0 = data.thickness_nm[-1]
+    thickness = np.linspace(max(1.0, 0.4 * t0), 2.0 * t0, args.thicknesses)
+    fields = default_fields_MV_cm(data, settings, count=args.fields)
+
+    breakdown_map(data, thickness[:2], fields[:3], settings=settings)  # JIT compile / cache load, not timed
+
+    kernel = _Timer(exact.transfer_product)
+    kernel_t = _Timer(exact.transmission_from_product)
+    exact.transfer_product, exact.transmission_from_product = kernel, kernel_t
+    t_start = time.perf_counter()
+    bmap = breakdown_map(data, thickness, fields, settings=settings)
+    wall = time.perf_counter() - t_start
+    exact.transfer_product, exact.transmission_from_product = kernel.fn, kernel_t.fn
+    t_start = time.perf_counter()
+    breakdown_map(data, thickness, fields, settings=settings)  # again, without the timers
+    wall_plain = time.perf_counter() - t_start
+
+    points = thickness.size * fields.size
+    k_s = kernel.seconds + kernel_t.seconds
+    print(f"breakdown map {thickness.size} x {fields.size} = {points} points "
+          f"({thickness[0]:.2f}..{thickness[-1]:.2f} nm x {fields[0]:.2f}..{fields[-1]:.2f} MV/cm), one core")
+    print(f"  wall time               {wall_plain:7.2f} s   (target < 10 s; {1e3 * wall_plain / points:.2f} ms/point)")
+    print(f"  with kernel timers      {wall:7.2f} s")
+    print(f"  exact kernel            {k_s:7.2f} s   = {100 * k_s / wall:.0f} % of the map "
+          f"({kernel.calls} kernel calls)")
+    ts = bmap.timing_s
+    print(f"  exact Tsu-Esaki total   {ts['exact_current']:7.2f} s   = {100 * ts['exact_current'] / wall:.0f} % "
+          "(kernel + Airy set-up + adaptive integration + resonance search)")
+    print(f"  WKB Tsu-Esaki           {ts['wkb_current']:7.2f} s   = {100 * ts['wkb_current'] / wall:.0f} %")
+    print(f"  barriers (stack, surface){ts['barriers']:6.2f} s   = {100 * ts['barriers'] / wall:.0f} %")
+    print(f"  failed points           {bmap.failed_points}")
+
+    # baseline: fixed 4000-energy trapezoid on a 6 x 6 subset, same T(E). Where the
+    # uniform grid is not converged itself (4000 vs 16000 energies differ by > 1 %:
+    # sharp resonances of the nitride well at low field) it is no reference, and
+    # those points are only counted.
+    ii = np.unique(np.linspace(0, thickness.size - 1, 6).round().astype(int))
+    jj = np.unique(np.linspace(0, fields.size - 1, 6).round().astype(int))
+    cases = []
+    for i in ii:
+        d = data.with_thickness(data.count - 1, thickness[i])
+        for j in jj:
+            cases.append((i, j, _barrier_at(d, settings, _state_for_field(d, settings, fields[j]))))
+    t_start = time.perf_counter()
+    base_j = [(_baseline_current(sb, "exact"), _baseline_current(sb, "wkb")) for _, _, sb in cases]
+    base = (time.perf_counter() - t_start) / len(cases) * points
+    worst, unresolved = 0.0, 0
+    for (i, j, sb), (je, jw) in zip(cases, base_j):
+        fine_e, fine_w = _baseline_current(sb, "exact", 16000), _baseline_current(sb, "wkb", 16000)
+        if abs(np.log(je / fine_e)) > 0.01 or abs(np.log(jw / fine_w)) > 0.01:
+            unresolved += 1
+            continue
+        worst = max(worst, abs(np.log(bmap.current_exact_A_cm2[i, j] / fine_e)),
+                    abs(np.log(bmap.current_wkb_A_cm2[i, j] / fine_w)))
+    print(f"  baseline (4000-energy trapezoid, extrapolated from {len(cases)} points) "
+          f"{base:7.2f} s; speed-up {base / wall_plain:.1f}x")
+    print(f"  max |ln(J_map / J_fine_grid)| on the {len(cases) - unresolved} subset points a uniform grid "
+          f"resolves: {worst:.1e} (map rtol 1e-3); {unresolved} resonance-dominated points where the "
+          "uniform grid is itself unconverged")
+
+
+if __name__ == "__main__":
+    main()
