@@ -115,3 +115,11 @@ def test_bad_case_value_exit_2(tmp_path):
     proc = _run_cli("bands", str(bad), "--quiet")
     assert proc.returncode == 2
     assert proc.stderr.strip().count("\n") == 0 and "thickness_nm" in proc.stderr
+
+
+def test_bands_cylindrical_cell_quiet(tmp_path, capsys):
+    fig = tmp_path / "cyl.png"
+    case = ROOT / "cases" / "demo-cell-cylindrical.toml"
+    assert main(["bands", str(case), "--figure", str(fig), "--quiet"]) == 0
+    assert capsys.readouterr().out == ""
+    assert fig.read_bytes()[:8] == PNG_MAGIC
