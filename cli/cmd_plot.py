@@ -14,6 +14,8 @@ def add_arguments(parser):
                         help="directory for the figures (default: beside FILE)")
     parser.add_argument("--quantity", action="append", metavar="NAME",
                         help="output to draw (repeatable; default: every scalar output)")
+    parser.add_argument("--over", metavar="KEY",
+                        help="for a grid: the axis of the line plot (default: the second axis)")
     parser.add_argument("--at", action="append", default=[], metavar="KEY=VALUE",
                         help="for a grid of more than two axes: the value of a further axis "
                              "(nearest is taken; default: its first value)")
@@ -58,10 +60,10 @@ def run(args) -> int:
                 hint = f" Did you mean {close[0]!r}?" if close else ""
                 raise CaseError(f"--quantity {q!r}: not in {path} (outputs: {', '.join(known)}).{hint}")
         keys = [a.key for a in d.axes]
-        for key in at:
+        for key in list(at) + ([args.over] if args.over else []):
             if key not in keys:
-                raise CaseError(f"--at {key}: not an axis of {path} (axes: {', '.join(keys)})")
-        paths = plot_study(d, out_dir, args.quantity, at=at)
+                raise CaseError(f"--at/--over {key}: not an axis of {path} (axes: {', '.join(keys)})")
+        paths = plot_study(d, out_dir, args.quantity, at=at, over=args.over)
     else:
         paths = plot_run(read_run(path), out_dir, path.stem, args.quantity)
     if not paths:

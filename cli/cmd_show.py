@@ -72,7 +72,8 @@ def _show_study(path: Path, limit: int) -> None:
                      + " x ".join(data.dims[len(d.shape):]), _range(np.asarray(data.values)[ok])])
     for name, data in d.profiles.items():
         extra = " x ".join(data.dims[len(d.shape):])
-        rows.append([name, data.units, f"profile over {extra}", _range(np.asarray(data.values)[ok])])
+        kind = "profile" if name in d.kept_profiles else "array"
+        rows.append([name, data.units, f"{kind} over {extra}", _range(np.asarray(data.values)[ok])])
     print(table(rows, ["output", "units", "kind", "range over finished points"], ["<", "<", "<", "<"]))
     print()
     pct = 100.0 * done / total if total else 100.0

@@ -671,6 +671,7 @@ def _create_study_layout(f: h5py.File, plan, reserves: dict[str, int]) -> None:
         else:
             ds = new(name, np.full(shape, np.nan), out.units, out.description, dims)
         ds.attrs["log_scale"] = np.int8(out.log)
+        ds.attrs["profile"] = np.int8(out.profile)
     for dim in reserves:
         new(f"{dim}_length", np.zeros(shape, np.int32), "1", f"valid length of axis {dim!r} per point", dims)
 
@@ -908,9 +909,10 @@ class StudyData:
     error_message: np.ndarray
     elapsed_s: np.ndarray
     outputs: dict        # name -> Data over the study axes (scalars)
-    profiles: dict       # name -> Data over the study axes + profile axes
+    profiles: dict       # name -> Data over the study axes + their own axes
     lengths: dict        # profile axis -> int array over the study axes
     log_scale: dict      # output name -> bool
+    kept_profiles: tuple = ()   # outputs kept on request (profiles)
 
 
 def _decode_bytes(arr: np.ndarray) -> np.ndarray:
@@ -943,7 +945,7 @@ def read_study(path) -> StudyData:
                     reserved.add(name)
             skip = {"completed", "failed", "error_type", "error_message", "elapsed_s", "point"}
             skip |= set(keys) | reserved | {f"{d}_length" for d in reserved}
-            outputs, profiles, log_scale = {}, {}, {}
+            outputs, profiles, log_scale, kept_profiles = {}, {}, {}, []
             for name, ds in g.items():
                 if name in skip:
                     continue
@@ -954,6 +956,8 @@ def read_study(path) -> StudyData:
                     description=_str(ds.attrs.get("description", "")),
                 )
                 log_scale[name] = bool(ds.attrs.get("log_scale", 0))
+                if ds.attrs.get("profile", 0):
+                    kept_profiles.append(name)
                 (profiles if ds.ndim > len(shape) else outputs)[name] = data
             lengths = {d: g[f"{d}_length"][...] for d in reserved if f"{d}_length" in g}
             completed = g["completed"][...].astype(bool)
@@ -974,6 +978,7 @@ def read_study(path) -> StudyData:
                 profiles=profiles,
                 lengths=lengths,
                 log_scale=log_scale,
+                kept_profiles=tuple(kept_profiles),
             )
         except (OSError, KeyError, RuntimeError, ValueError) as err:
             raise StoreError(f"{p}: study file truncated or corrupt ({_short(err)})") from None

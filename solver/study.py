@@ -790,3 +790,58 @@ register_computation(
     sizes=_bands_sizes,
     description="self-consistent Schrödinger–Poisson solve at bias.gate_V",
 )
+
+
+def _warm_current() -> None:
+    """Compile (or load from the numba cache) the transmission and current kernels."""
+    from solver.tunneling import Barrier, current_density, transmission
+
+    b = Barrier((2.0, 1.0), (3.0, 2.0), (2.0, 2.0), (0.5, 0.4), left=(0.0, 0.3), right=(-1.0, 0.3))
+    transmission(b, np.array([0.5, 1.0]))
+    current_density(b, 0.5, -0.5, 300.0)
+
+
+def current_point(case) -> dict:
+    """Electron tunneling current emitted by the channel at the point's
+    bias.gate_V (planar stack electrostatics of solver.tunneling.stack, exact
+    transmission, Tsu–Esaki): through the whole stack, and through the
+    injecting (channel-side) layer alone into the next layer's band."""
+    from solver.tunneling import current_density
+    from solver.tunneling.stack import stack_barrier, stack_data, stack_state
+
+    data = stack_data(case)
+    state = stack_state(data, gate_V=case.bias.gate_V)
+    whole = stack_barrier(data, state, carrier="electron", emitter="channel", through="stack")
+    inject = stack_barrier(data, state, carrier="electron", emitter="channel", through="injecting-layer")
+    j_stack = current_density(whole.barrier, whole.fermi_left_eV, whole.fermi_right_eV, whole.temperature_K)
+    j_inject = current_density(inject.barrier, inject.fermi_left_eV, inject.fermi_right_eV,
+                               inject.temperature_K)
+    return {
+        "current_A_cm2": float(j_stack),
+        "injection_current_A_cm2": float(j_inject),
+        "injecting_field_MV_cm": whole.injecting_field_MV_cm,
+        "fowler_nordheim": 1.0 if whole.regime == "fowler-nordheim" else 0.0,
+        "surface_potential_V": state.surface_potential_V,
+        "stack_V": state.stack_V,
+        "layer_fields_MV_cm": np.asarray(state.layer_fields_MV_cm, dtype=float),
+    }
+
+
+register_computation(
+    "current",
+    current_point,
+    {
+        "current_A_cm2": Output("A/cm^2", "electron current from the channel through the whole stack "
+                                "(Tsu–Esaki, exact T), > 0 toward the gate", log=True),
+        "injection_current_A_cm2": Output("A/cm^2", "electron current from the channel through the "
+                                          "injecting layer into the next layer", log=True),
+        "injecting_field_MV_cm": Output("MV/cm", "field in the injecting layer at the channel side"),
+        "fowler_nordheim": Output("1", "1 where the injecting layer is in the Fowler–Nordheim regime"),
+        "surface_potential_V": Output("V", "channel band bending (classical surface estimate)"),
+        "stack_V": Output("V", "voltage across the dielectric stack"),
+        "layer_fields_MV_cm": Output("MV/cm", "field in each dielectric layer, gate first", ("layer",)),
+    },
+    warm_up=_warm_current,
+    sizes=_bands_sizes,
+    description="tunneling current from the channel at bias.gate_V (planar stack electrostatics)",
+)

@@ -77,11 +77,15 @@ def _select(d, values, at: dict) -> tuple[np.ndarray, list[str]]:
     return np.asarray(values)[tuple(index)], notes
 
 
-def plot_study(d, out_dir, quantities=None, at=None, stem=None) -> list[str]:
-    """Write one PNG per scalar output of a study (store.StudyData); returns the paths.
+def plot_study(d, out_dir, quantities=None, at=None, stem=None, over=None) -> list[str]:
+    """Write PNGs of the scalar outputs of a study (store.StudyData); returns the paths.
 
+    One axis (or zipped axes): lines. Two or more grid axes: a map over the
+    first two, and lines over `over` (default: the second axis), one per value
+    of the other.
     quantities : output names (default: every scalar output)
     at : {axis key: value} fixing the axes beyond the first two of a grid
+    over : axis key for the family of lines
     """
     out_dir = Path(out_dir)
     stem = stem or Path(d.path).stem
@@ -104,7 +108,35 @@ def plot_study(d, out_dir, quantities=None, at=None, stem=None) -> list[str]:
         else:
             grid, notes = _select(d, values, at)
             paths.append(_map(d, name, data.units, grid, log, out_dir, stem, title, notes))
+            paths.append(_family(d, name, data.units, grid, log, out_dir, stem, title, notes, over))
     return paths
+
+
+def _family(d, name, units, grid, log, out_dir, stem, title, notes, over=None, max_lines=12):
+    """Lines over one of the first two axes of a grid, one per value of the other."""
+    keys = [d.axes[0].key, d.axes[1].key]
+    k = keys.index(over) if over in keys else 1
+    xa, la = d.axes[k], d.axes[1 - k]
+    z = grid if k == 1 else grid.T            # rows: line axis, columns: x axis
+    y_all, label, logy = _prepare(z, log, name, units)
+    x = np.asarray(xa.values, dtype=float)
+    fig, ax = new_figure(figsize=(6.0, 4.2))
+    rows = range(0, z.shape[0], max(1, int(np.ceil(z.shape[0] / max_lines))))
+    for i in rows:
+        ax.plot(x, y_all[i], marker="o", markersize=3, linewidth=1.1,
+                label=f"{la.values[i]:.4g} {la.units if la.units != '1' else ''}".strip())
+    ax.set_xlabel(_label(xa.key, xa.units))
+    ax.set_ylabel(label)
+    if logy:
+        ax.set_yscale("log")
+    if axis_wants_log(x, xa.units, xa.spacing):
+        ax.set_xscale("log")
+    ax.legend(title=la.key, fontsize=7, title_fontsize=7)
+    if notes:
+        title += "\nat " + ", ".join(notes)
+    ax.set_title(title, fontsize=9)
+    ax.grid(True, which="both", alpha=0.3)
+    return save(fig, out_dir / f"{stem}-{_safe(name)}-over-{_safe(xa.key)}.png")
 
 
 def _line(d, name, units, values, log, out_dir, stem, title):
