@@ -48,6 +48,8 @@ def _solve(e_J, shape, thickness_nm, u_eV, mass, left, right, where):
     mass_kg = np.ascontiguousarray(mass, dtype=np.float64) * M0_KG
     lead_edge_J = np.array([left[0], right[0]]) * EV_TO_J
     lead_mass_kg = np.array([left[1], right[1]]) * M0_KG
+    for arr in (thickness_m, u_J, mass_kg, lead_edge_J, lead_mass_kg):
+        arr.flags.writeable = False      # same array types as Barrier.layer_data_si: one compiled kernel
     parts = transfer_product(e_J, thickness_m, u_J, u_J, mass_kg, anchors, au, av)
     t = transmission_from_product(e_J, *parts, lead_edge_J, lead_mass_kg)
     if not np.all(np.isfinite(t)):
