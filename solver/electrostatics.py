@@ -123,12 +123,14 @@ class QuantumCharge:
     """A carrier density on some nodes supplied by the Schrödinger solution,
     in the Trellakis form: a callable `density(phi_nodes) -> (rho_C_m3,
     drho_dphi)` for the box nodes `nodes`, and the weight of every box node
-    (blend * box volume) that multiplies it. `classical_weight` (0..1 per
-    node) scales the classical carriers of the channel on those nodes."""
+    (blend * box volume) that multiplies it. `electron_weight` and
+    `hole_weight` (one per mesh node, 0..1) scale the classical carriers of
+    the channel."""
 
     nodes: np.ndarray
     weight: np.ndarray
-    classical_weight: np.ndarray
+    electron_weight: np.ndarray
+    hole_weight: np.ndarray
     density: object
 
 
@@ -246,8 +248,9 @@ class Poisson:
                 n, dn = stat.electron_density(ec, ef, sp.conduction_dos_m3, self.T, st)
                 p, dp = stat.hole_density(ev, ef, sp.valence_dos_m3, self.T, st)
                 if quantum is not None and role == "channel":
-                    w = self._classical_weight(quantum, nodes)
-                    n, dn, p, dp = n * w, dn * w, p * w, dp * w
+                    wn = quantum.electron_weight[nodes]
+                    wp = quantum.hole_weight[nodes]
+                    n, dn, p, dp = n * wn, dn * wn, p * wp, dp * wp
                 rho = p - n
                 drho = dp - dn
                 if sp.donors_m3 > 0:
@@ -269,18 +272,6 @@ class Poisson:
             Q[quantum.nodes] += quantum.weight * rho_q
             dQ[quantum.nodes] += quantum.weight * drho_q
         return Q, dQ
-
-    def _classical_weight(self, quantum, nodes):
-        key = id(quantum)
-        cache = getattr(self, "_cw_cache", None)
-        if cache is not None and cache[0] == key:
-            return cache[1]
-        w = np.ones(nodes.size)
-        pos = np.searchsorted(nodes, quantum.nodes)
-        inside = (pos < nodes.size) & (nodes[np.minimum(pos, nodes.size - 1)] == quantum.nodes)
-        w[pos[inside]] = quantum.classical_weight[inside]
-        self._cw_cache = (key, w)
-        return w
 
     def gradient(self, phi, gate_V, quantum=None):
         """G = L phi - Q(phi) at every node, and dQ/dphi."""

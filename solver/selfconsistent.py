@@ -73,8 +73,11 @@ from solver.units import (
 __all__ = ["Solution", "solve", "solve_structure", "prepare"]
 
 OUTER_TOLERANCE_V = 1e-8
+INNER_TOLERANCE_V = 1e-9       # Newton tolerance of the Poisson solves near convergence
+INNER_TOLERANCE_MAX_V = 1e-4
 MAX_OUTER_ITERATIONS = 30
 SUBBANDS_REPORTED = 10      # lowest subbands per valley set listed in Solution.subbands
+NEGLIGIBLE_SHEET_M2 = 1e7   # 1e3 carriers per cm^2
 TAIL_KT = 12.0              # states are added until the highest lies this far above max(E_F, E_0)
 
 
@@ -194,18 +197,48 @@ class _QuantumChannel:
         self.nodes = q
         self.blend = structure.quantum_blend
         self.weight = self.blend * (structure.vol_left + structure.vol_right)[q]
-        self.classical_weight = 1.0 - self.blend
         self.electrons = _Valleys(structure, poisson, "e")
         self.holes = _Valleys(structure, poisson, "h")
         self.kT = poisson.kT
+        ch = structure.channel
+        self._box_in_channel = np.isin(ch.nodes, q)
+        self._box_volume = ch.volume * self._box_in_channel
+        self._weights = {}
 
-    def states(self, phi):
+    def active_carriers(self, phi, gate_V, previous=(False, False)):
+        """Which carriers are quantized: those whose classical sheet density
+        in the box exceeds NEGLIGIBLE_SHEET_M2 (once on, they stay on for the
+        rest of the solve). The others stay classical everywhere: they hold
+        less than 1e3 per cm^2 in the box."""
+        dens = next(d for d in self.p.semiconductor_densities(phi, gate_V) if d["role"] == "channel")
+        ref = self.s.reference_area
+        e = float(np.sum(dens["n"] * self._box_volume)) / ref
+        h = float(np.sum(dens["p"] * self._box_volume)) / ref
+        return (previous[0] or e > NEGLIGIBLE_SHEET_M2, previous[1] or h > NEGLIGIBLE_SHEET_M2)
+
+    def classical_weights(self, active):
+        """Per-node weights of the classical electrons and holes."""
+        hit = self._weights.get(active)
+        if hit is None:
+            n = self.s.size
+            box = np.ones(n)
+            box[self.nodes] = 1.0 - self.blend
+            ones = np.ones(n)
+            hit = (box if active[0] else ones, box if active[1] else ones)
+            for a in hit:
+                a.flags.writeable = False
+            self._weights[active] = hit
+        return hit
+
+    def states(self, phi, active=(True, True)):
         ef = self.p.channel_fermi_J
         pb = phi[self.nodes]
-        return self.electrons.solve(pb, ef), self.holes.solve(pb, ef)
+        return (self.electrons.solve(pb, ef) if active[0] else [],
+                self.holes.solve(pb, ef) if active[1] else [], tuple(active))
 
-    @staticmethod
-    def _stack(states):
+    def _stack(self, states):
+        if not states:
+            return np.zeros(0), np.zeros((self.nodes.size, 0)), np.zeros(0)
         E = np.concatenate([s[1] for s in states])
         psi2 = np.concatenate([s[2] for s in states], axis=1)
         dos = np.concatenate([np.full(s[1].size, s[3]) for s in states])
@@ -214,7 +247,7 @@ class _QuantumChannel:
     def charge_model(self, states, phi_ref, frozen=False) -> QuantumCharge:
         """Trellakis density for the box: subband energies follow the local
         potential change phi - phi_ref (or stay put when `frozen`)."""
-        e_states, h_states = states
+        e_states, h_states, active = states
         Ee, psi_e, dos_e = self._stack(e_states)
         Eh, psi_h, dos_h = self._stack(h_states)
         kT = self.kT
@@ -242,7 +275,8 @@ class _QuantumChannel:
                 p = (psi_h * (dos_h * kT) * np.logaddexp(0.0, xh)).sum(axis=1)
                 dp = -(psi_h * dos_h * expit(xh)).sum(axis=1) * Q_C
                 return Q_C * (p - n), Q_C * (dp - dn)
-        return QuantumCharge(self.nodes, self.weight, self.classical_weight, density)
+        wn, wp = self.classical_weights(active)
+        return QuantumCharge(self.nodes, self.weight, wn, wp, density)
 
     def populations(self, states):
         """Per valley: (carrier, valley, E_J on the electron scale, N_m2 per
@@ -250,7 +284,7 @@ class _QuantumChannel:
         ef = self.p.channel_fermi_J
         kT = self.kT
         out = []
-        e_states, h_states = states
+        e_states, h_states, _ = states
         for v, E, psi2, dos in e_states:
             out.append(("e", v, E, dos * kT * np.logaddexp(0.0, (ef - E) / kT), psi2))
         for v, E, psi2, dos in h_states:
@@ -339,14 +373,17 @@ def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=No
     converged = False
     states = None
     it = 0
+    active = (False, False)
+    inner_tol = INNER_TOLERANCE_MAX_V
     for it in range(1, max_iterations + 1):
-        states = qc.states(phi)
+        active = qc.active_carriers(phi, gate_V, active)
+        states = qc.states(phi, active)
         if scheme == "predictor-corrector":
             model = qc.charge_model(states, phi)
-            new, rec = P.solve(gate_V, phi, model, raise_on_failure=False)
+            new, rec = P.solve(gate_V, phi, model, tolerance_V=inner_tol, raise_on_failure=False)
         elif scheme == "under-relaxed":
             model = qc.charge_model(states, phi, frozen=True)
-            target, rec = P.solve(gate_V, phi, model, raise_on_failure=False)
+            target, rec = P.solve(gate_V, phi, model, tolerance_V=inner_tol, raise_on_failure=False)
             new = phi + relaxation * (target - phi)
         else:
             raise ValueError(f"scheme must be 'predictor-corrector' or 'under-relaxed', got {scheme!r}")
@@ -357,6 +394,8 @@ def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=No
         delta = float(np.abs(new - phi).max())
         history.append(delta)
         phi = new
+        # inexact inner solves while the outer loop is far from converged
+        inner_tol = min(max(0.01 * delta, INNER_TOLERANCE_V), INNER_TOLERANCE_MAX_V)
         if delta <= tolerance_V:
             converged = True
             break
@@ -370,7 +409,7 @@ def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=No
         raise ConvergenceError(
             f"Schrödinger–Poisson at gate_V = {gate_V:g} V did not converge: residual history "
             f"{', '.join(f'{h:.2e}' for h in history[-5:])} V", record)
-    states = qc.states(phi)
+    states = qc.states(phi, active)
     return _solution(prep, gate_V, phi, states, record, it, newton_total, True)
 
 
@@ -394,20 +433,20 @@ def _solution(prep, gate_V, phi, states, record, iterations, newton_total, quant
     h_count = 0.0
     sc_charge = 0.0
     ch = s.channel
-    cw = np.ones(n_nodes)
     qc = prep.quantum if quantum else None
+    wn = wp = np.ones(n_nodes)
     if qc is not None:
-        cw[qc.nodes] = qc.classical_weight
+        wn, wp = qc.classical_weights(states[2])
     dens = P.semiconductor_densities(phi, gate_V)
     p_bulk = 0.0
     for d in dens:
         nodes = d["nodes"]
-        w = cw[nodes] if d["role"] == "channel" else 1.0
-        n[nodes] += d["n"] * w
-        p[nodes] += d["p"] * w
+        en, hp = (wn[nodes], wp[nodes]) if d["role"] == "channel" else (1.0, 1.0)
+        n[nodes] += d["n"] * en
+        p[nodes] += d["p"] * hp
         if d["role"] == "channel":
-            e_count += float(np.sum(d["n"] * w * d["vol"]))
-            h_count += float(np.sum(d["p"] * w * d["vol"]))
+            e_count += float(np.sum(d["n"] * en * d["vol"]))
+            h_count += float(np.sum(d["p"] * hp * d["vol"]))
             sc_charge += Q_C * float(np.sum(d["vol"] * (d["nd"] - d["na"])))
     # neutral majority density of the channel
     spec = ch.spec
