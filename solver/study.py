@@ -384,7 +384,7 @@ def _profile_reserves(plan: StudyPlan, reserves: dict[str, int]) -> dict[str, in
     sizes = plan.compute.sizes
     out = dict(reserves)
     if sizes is not None:
-        for index in range(plan.n_points):
+        for index in _sample_points(plan):
             try:
                 case = _apply(plan.case, plan.assignments(index))
                 for d, n in sizes(case).items():
@@ -393,6 +393,21 @@ def _profile_reserves(plan: StudyPlan, reserves: dict[str, int]) -> dict[str, in
             except Exception:  # noqa: BLE001 - a bad point is reported when it runs
                 continue
     return {d: max(n, 1) for d, n in out.items()}
+
+
+def _sample_points(plan: StudyPlan, limit: int = 64) -> list[int]:
+    """All points of a small study; else the corners of the grid and evenly
+    spaced points (a size missed here only makes the file grow later)."""
+    n = plan.n_points
+    if n <= limit:
+        return list(range(n))
+    picks = set(np.linspace(0, n - 1, limit // 2).astype(int).tolist())
+    if plan.mode == "grid":
+        for corner in itertools.product(*[(0, len(a.values) - 1) for a in plan.axes]):
+            if len(picks) >= 2 * limit:
+                break
+            picks.add(int(np.ravel_multi_index(corner, plan.shape)))
+    return sorted(picks)
 
 
 # ---------------------------------------------------------------------------
@@ -765,8 +780,14 @@ def bands_point(case) -> dict:
     }
 
 
-def _bands_sizes(case) -> dict:
+def _layer_sizes(case) -> dict:
     return {"layer": len(case.layers)}
+
+
+def _bands_sizes(case) -> dict:
+    from solver.mesh import structure_from_case
+
+    return {"layer": len(case.layers), "node": structure_from_case(case).size}
 
 
 register_computation(
@@ -842,6 +863,6 @@ register_computation(
         "layer_fields_MV_cm": Output("MV/cm", "field in each dielectric layer, gate first", ("layer",)),
     },
     warm_up=_warm_current,
-    sizes=_bands_sizes,
+    sizes=_layer_sizes,
     description="tunneling current from the channel at bias.gate_V (planar stack electrostatics)",
 )

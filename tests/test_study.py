@@ -579,3 +579,20 @@ def test_cli_ctrl_c_then_resume(tmp_path):
     # C = eps0 * 3.9 / t (Sze & Ng 2007, Sec. 4.2)
     assert_allclose(d.outputs["capacitance_F_m2"].values, epsilon_0 * 3.9 / (t * 1e-9), rtol=1e-15)
     assert math.isclose(float(d.outputs["field_V_nm"].values[0, 1]), 2.0 / 2.0)
+
+
+def plate_sizes(case):
+    return {"node": int(round(case.value_at(THICK) * 4)) + 1}
+
+
+register_computation("test-plate-sized", plate_point, _OUTPUTS, sizes=plate_sizes, replace=True)
+
+
+def test_sizes_hook_reserves_room_up_front(tmp_path):
+    case = grid_case(thick=(3.0, 9.0, 30.0), gate=(1.0,), keep_profiles=True, compute="test-plate-sized")
+    plan = plan_study(case)
+    assert dict(plan.profile_reserves) == {"node": 121}
+    run_file(tmp_path / "s.h5", case)
+    d = read_study(tmp_path / "s.h5")
+    assert d.profiles["x_nm"].values.shape == (3, 1, 121)
+    assert_array_equal(d.lengths["node"][:, 0], [13, 37, 121])
