@@ -24,9 +24,10 @@ max(highest barrier top, Fermi levels) + 40 kT (the Fermi tail beyond is below
 e^-40 of the integrand there); at 0 K it ends at the higher Fermi level. It is
 done by adaptive Gauss–Kronrod (7/15 points) on panels that start at every
 kink of the integrand (band edges of the layers and leads, Fermi levels),
-geometrically spaced within +-32 kT of each Fermi level, around every sharp
-resonance (below) and no wider than 0.05 eV, and are bisected where |K15 - G7| is largest until the summed
-|K15 - G7| (a pessimistic error estimate) is below rtol (1e-4) of |J|.
+geometrically spaced within +-32 kT of each Fermi level and around every
+sharp resonance (below), no wider than 0.1 eV, and are bisected where
+|K15 - G7| is largest until the summed |K15 - G7| (a pessimistic error
+estimate) is below rtol (1e-4) of |J|.
 An integration that does not get there raises ConvergenceError.
 
 Sharp resonances (quasi-bound states of a well inside the stack, e.g. the
@@ -34,7 +35,7 @@ nitride of a biased oxide/nitride/oxide barrier) can be far narrower than any
 affordable grid and can still carry most of the current. For the exact model
 they are located first (`find_resonances`: zeros of the two smooth functions
 whose squares make up 1/T, refined by regula falsi, with a width estimate),
-and panel edges are placed at z +- w 4^k around each peak that could matter,
+and panel edges are placed at z +- w 6^k around each peak that could matter,
 before the adaptive bisection starts. No scattering broadens the resonances
 here (coherent transport); peaks narrower than ~1e-14 eV are below the
 resolution of the energy axis.
@@ -99,7 +100,9 @@ for _a in (GK_NODES, GK_KRONROD_WEIGHTS, GK_GAUSS_WEIGHTS):
     _a.flags.writeable = False
 
 _TAIL_KT = 40.0  # integrate this many kT beyond the highest barrier top / Fermi level
-_MAX_PANEL_EV = 0.05
+_MAX_PANEL_EV = 0.1
+_SCAN_EV = 0.0125  # grid spacing of the resonance search
+_RESONANCE_RATIO = 6.0  # panel edges at z +- w * ratio^k around a sharp resonance
 _FERMI_STEPS = 2.0 ** np.arange(0, 6)  # panel edges at E_F +- kT * (1, 2, ..., 32)
 _MAX_PANELS = 20000
 _MAX_ROUNDS = 60
@@ -192,10 +195,10 @@ def _initial_edges(barrier, fermi_left_eV, fermi_right_eV, kT, lower, upper) -> 
     return _split_wide(p[(p >= lower) & (p <= upper)])
 
 
-def _split_wide(p: np.ndarray) -> np.ndarray:
-    """Sorted edges with every gap wider than _MAX_PANEL_EV split evenly."""
+def _split_wide(p: np.ndarray, max_width: float = _MAX_PANEL_EV) -> np.ndarray:
+    """Sorted edges with every gap wider than `max_width` split evenly."""
     widths = np.diff(p)
-    pieces = np.maximum(1, np.ceil(widths / _MAX_PANEL_EV - 1e-9).astype(np.int64))
+    pieces = np.maximum(1, np.ceil(widths / max_width - 1e-9).astype(np.int64))
     gap = np.repeat(np.arange(widths.size), pieces)
     step = np.arange(gap.size) - np.repeat(np.cumsum(pieces) - pieces, pieces) + 1
     inner = p[:-1][gap] + widths[gap] * step / pieces[gap]
@@ -312,11 +315,11 @@ def find_resonances(barrier, energy_eV):
 
 
 def _resonance_edges(centers, widths, lower, upper):
-    """Panel edges at z +- w 4^k around each resonance, up to the panel width limit."""
+    """Panel edges at z +- w 6^k around each resonance, up to the panel width limit."""
     pts = [centers]
     for z, w in zip(centers, widths):
-        n = max(1, int(math.ceil(math.log(max(0.5 * _MAX_PANEL_EV / w, 1.0), 4.0))) + 1)
-        offsets = w * 4.0 ** np.arange(-1, n)
+        n = max(1, int(math.ceil(math.log(max(0.5 * _MAX_PANEL_EV / w, 1.0), _RESONANCE_RATIO))) + 1)
+        offsets = w * _RESONANCE_RATIO ** np.arange(-1, n)
         pts.append(z + offsets)
         pts.append(z - offsets)
     p = np.concatenate(pts)
@@ -346,10 +349,9 @@ def tsu_esaki(barrier, fermi_left_eV, fermi_right_eV, temperature_K, *, model="e
     evaluations = 15 * a.size
     n_resonances = 0
     if resonances and model == "exact":
-        # sign changes of the matching functions on a grid 4 points per panel
-        # (spacing <= 12.5 meV, below the level spacing of nm-thick wells)
-        nodes = a[:, None] + (b - a)[:, None] * np.array([0.0, 0.25, 0.5, 0.75])[None, :]
-        centers, widths = find_resonances(barrier, np.append(nodes.ravel(), upper))
+        # sign changes of the matching functions on a grid of spacing <= _SCAN_EV
+        # (below the level spacing of nm-thick wells)
+        centers, widths = find_resonances(barrier, _split_wide(edges, _SCAN_EV))
         # keep the peaks that could matter: T <= 1, so a peak adds at most ~ pi w S(z)
         guess = abs(math.fsum(k))
         if centers.size:
