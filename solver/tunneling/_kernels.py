@@ -25,7 +25,7 @@ import numpy as np
 from solver.tunneling._airy import airy_negative_asymptotic, airy_scaled_kernel
 from solver.units import HBAR_J_S, M0_KG
 
-__all__ = ["transfer_product", "transmission_from_product", "FLAT_LAMBDA_D"]
+__all__ = ["transfer_product", "transmission_from_product", "transmission_kernel", "FLAT_LAMBDA_D"]
 
 L0_M = 1e-9
 # 2 m0 L0^2 / hbar^2 in 1/J: E_J * REDUCED_PER_J is an energy in units of hbar^2/(2 m0 L0^2)
@@ -394,3 +394,22 @@ def transmission_from_product(energy_J, p11, p12, p21, p22, logs, lead_edge_J, l
         else:
             out[j] = 1.0 / (1.0 + math.exp(big))
     return out
+
+
+@numba.njit(cache=True, error_model="numpy")
+def transmission_kernel(energy_J, thickness_m, u_start_J, u_end_J, mass_kg, lead_edge_J, lead_mass_kg,
+                        anchors, u, v):
+    """T at each energy in one call; returns (T, status, index).
+
+    status 0: all fine; 1: energy_J[index] is not finite (T not computed);
+    2: T[index] came out non-finite (a kernel failure, never to be hidden).
+    """
+    for j in range(energy_J.shape[0]):
+        if not math.isfinite(energy_J[j]):
+            return np.empty(0), 1, j
+    p11, p12, p21, p22, logs = transfer_product(energy_J, thickness_m, u_start_J, u_end_J, mass_kg, anchors, u, v)
+    t = transmission_from_product(energy_J, p11, p12, p21, p22, logs, lead_edge_J, lead_mass_kg)
+    for j in range(t.shape[0]):
+        if not (t[j] >= 0.0 and t[j] <= 1.0):
+            return t, 2, j
+    return t, 0, -1

@@ -17,7 +17,7 @@ import numpy as np
 
 from solver.errors import ComputationError
 from solver.tunneling._airy import anchors_and_coefficients
-from solver.tunneling._kernels import transfer_product, transmission_from_product
+from solver.tunneling._kernels import transfer_product, transmission_kernel
 from solver.tunneling.barrier import Barrier
 from solver.units import EV_TO_J
 
@@ -26,10 +26,11 @@ __all__ = ["transmission", "transfer_matrix"]
 
 def _energies_J(energy_eV) -> tuple[np.ndarray, tuple]:
     e = np.asarray(energy_eV, dtype=np.float64)
-    if not np.all(np.isfinite(e)):
-        bad = e[~np.isfinite(e)].ravel()[0]
-        raise ValueError(f"transmission: energy_eV must be finite, got {bad}")
     return np.ascontiguousarray(e.ravel()) * EV_TO_J, e.shape
+
+
+def _raise_bad_energy(e_J, j, where="transmission"):
+    raise ValueError(f"{where}: energy_eV must be finite, got energy_eV[{j}] = {e_J[j] / EV_TO_J}")
 
 
 def _check_barrier(barrier) -> None:
@@ -46,6 +47,8 @@ def transfer_matrix(barrier: Barrier, energy_eV):
     """
     _check_barrier(barrier)
     e_J, shape = _energies_J(energy_eV)
+    if not np.isfinite(e_J).all():
+        _raise_bad_energy(e_J, int(np.flatnonzero(~np.isfinite(e_J))[0]))
     d = barrier.layer_data_si
     anchors, u, v = anchors_and_coefficients()
     parts = transfer_product(e_J, d.thickness_m, d.u_start_J, d.u_end_J, d.mass_kg, anchors, u, v)
@@ -81,9 +84,11 @@ def transmission(barrier: Barrier, energy_eV) -> np.ndarray:
     e_J, shape = _energies_J(energy_eV)
     d = barrier.layer_data_si
     anchors, u, v = anchors_and_coefficients()
-    p11, p12, p21, p22, logs = transfer_product(e_J, d.thickness_m, d.u_start_J, d.u_end_J, d.mass_kg, anchors, u, v)
-    t = transmission_from_product(e_J, p11, p12, p21, p22, logs, d.lead_edge_J, d.lead_mass_kg)
-    if not np.all(np.isfinite(t)):
-        j = int(np.flatnonzero(~np.isfinite(t))[0])
-        raise ComputationError(f"transmission: non-finite T at energy_eV={e_J[j] / EV_TO_J!r} for {barrier!r}")
+    t, status, j = transmission_kernel(e_J, d.thickness_m, d.u_start_J, d.u_end_J, d.mass_kg,
+                                       d.lead_edge_J, d.lead_mass_kg, anchors, u, v)
+    if status == 1:
+        _raise_bad_energy(e_J, j)
+    if status == 2:
+        raise ComputationError(f"transmission: T = {t[j]} outside [0, 1] at energy_eV={e_J[j] / EV_TO_J!r} "
+                               f"for {barrier!r}")
     return t.reshape(shape)

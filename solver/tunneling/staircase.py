@@ -15,7 +15,7 @@ import numpy as np
 
 from solver.errors import ComputationError
 from solver.tunneling._airy import anchors_and_coefficients
-from solver.tunneling._kernels import transfer_product, transmission_from_product
+from solver.tunneling._kernels import transmission_kernel
 from solver.tunneling.barrier import Barrier
 from solver.units import EV_TO_J, M0_KG, NM_TO_M
 
@@ -24,8 +24,6 @@ __all__ = ["staircase_transmission", "staircase_transmission_profile"]
 
 def _energies_J(energy_eV, where):
     e = np.asarray(energy_eV, dtype=np.float64)
-    if not np.all(np.isfinite(e)):
-        raise ValueError(f"{where}: energy_eV must be finite, got {e[~np.isfinite(e)].ravel()[0]}")
     return np.ascontiguousarray(e.ravel()) * EV_TO_J, e.shape
 
 
@@ -50,10 +48,12 @@ def _solve(e_J, shape, thickness_nm, u_eV, mass, left, right, where):
     lead_mass_kg = np.array([left[1], right[1]]) * M0_KG
     for arr in (thickness_m, u_J, mass_kg, lead_edge_J, lead_mass_kg):
         arr.flags.writeable = False      # same array types as Barrier.layer_data_si: one compiled kernel
-    parts = transfer_product(e_J, thickness_m, u_J, u_J, mass_kg, anchors, au, av)
-    t = transmission_from_product(e_J, *parts, lead_edge_J, lead_mass_kg)
-    if not np.all(np.isfinite(t)):
-        raise ComputationError(f"{where}: non-finite T")
+    t, status, j = transmission_kernel(e_J, thickness_m, u_J, u_J, mass_kg, lead_edge_J, lead_mass_kg,
+                                       anchors, au, av)
+    if status == 1:
+        raise ValueError(f"{where}: energy_eV must be finite, got energy_eV[{j}] = {e_J[j] / EV_TO_J}")
+    if status == 2:
+        raise ComputationError(f"{where}: T = {t[j]} outside [0, 1] at energy_eV={e_J[j] / EV_TO_J!r}")
     return t.reshape(shape)
 
 
