@@ -50,6 +50,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import partial
 from typing import Callable
 
 import numpy as np
@@ -63,6 +64,7 @@ __all__ = [
     "TsuEsakiResult",
     "current_sweep",
     "current_voltage",
+    "current_field",
     "CurrentVoltage",
     "with_bias",
     "bias_for_field",
@@ -551,3 +553,17 @@ def current_voltage(barrier_at, bias_V, temperature_K, *, fermi_left_eV=0.0, mod
     for arr in (biases, cur, evals):
         arr.flags.writeable = False
     return CurrentVoltage(biases, cur, evals, name, float(temperature_K))
+
+
+def current_field(barrier, layer, field_MV_cm, temperature_K, *, relative_permittivity=None, fermi_left_eV=0.0,
+                  model="exact", rtol=1e-4, supply_mass=None) -> CurrentVoltage:
+    """J–F sweep: the current at the biases that put `field_MV_cm` into layer `layer`.
+
+    The biases follow `bias_for_field` and the profiles `with_bias` (series
+    capacitors with `relative_permittivity`, None = equal); the result's
+    `bias_V` holds the biases used, in the order of `field_MV_cm`.
+    """
+    biases = np.atleast_1d(bias_for_field(barrier, layer, field_MV_cm, relative_permittivity))
+    return current_voltage(partial(with_bias, barrier, relative_permittivity=relative_permittivity), biases,
+                           temperature_K, fermi_left_eV=fermi_left_eV, model=model, rtol=rtol,
+                           supply_mass=supply_mass)
