@@ -129,6 +129,7 @@ def _anchor_table():
 
 _ANCHORS = _anchor_table()
 _U, _V = _asymptotic_coefficients(_N_ASYM)
+_INV_NN = np.array([1.0 / ((n + 1.0) * (n + 2.0)) for n in range(_N_TAYLOR)])   # Taylor recurrence factors
 _INV_SQRT_PI = 1.0 / math.sqrt(math.pi)
 _QUARTER_PI = 0.25 * math.pi
 
@@ -156,7 +157,7 @@ def _taylor(z, anchors):
     bip = b1
     hn = h            # h^(n+1) for the value, h^n for the derivative
     for n in range(_N_TAYLOR - 2):
-        inv = 1.0 / ((n + 1.0) * (n + 2.0))
+        inv = _INV_NN[n]
         a2 = (z0 * a0 + a_m1) * inv
         b2 = (z0 * b0 + b_m1) * inv
         # derivative term (n+2) c_(n+2) h^(n+1), value term c_(n+2) h^(n+2)
