@@ -85,7 +85,8 @@ def _rectangular_closed_form(E, U, d, mb, left, right):
         b = kappa / mb
         x = kappa * d
         if x < 300:
-            t = 4 * a * c * b * b / (b * b * (a + c) ** 2 * math.cosh(x) ** 2 + (b * b - a * c) ** 2 * math.sinh(x) ** 2)
+            den = b * b * (a + c) ** 2 * math.cosh(x) ** 2 + (b * b - a * c) ** 2 * math.sinh(x) ** 2
+            t = 4 * a * c * b * b / den
             return t, math.log(t)
         # cosh^2, sinh^2 -> e^{2x}/4 (relative corrections e^{-2x} < 1e-260)
         ln_t = math.log(16 * a * c * b * b) - math.log(b * b * (a + c) ** 2 + (b * b - a * c) ** 2) - 2 * x

@@ -383,8 +383,8 @@ def tsu_esaki(barrier, fermi_left_eV, fermi_right_eV, temperature_K, *, model="e
         rel = err_sum / abs(total) if total != 0.0 else (0.0 if err_sum == 0.0 else math.inf)
         history.append(rel)
         if rel <= rtol:
-            record = ConvergenceRecord(True, rounds, tuple(history), "converged", "relative",
-                                       {"panels": int(a.size), "evaluations": int(evaluations), "resonances": n_resonances})
+            extra_info = {"panels": int(a.size), "evaluations": int(evaluations), "resonances": n_resonances}
+            record = ConvergenceRecord(True, rounds, tuple(history), "converged", "relative", extra_info)
             return TsuEsakiResult(scale * total, scale * err_sum, (lower, upper), int(a.size), int(evaluations),
                                   n_resonances, record)
         if rounds == _MAX_ROUNDS or a.size > _MAX_PANELS:

@@ -217,7 +217,8 @@ def _v_and_dvdf(f: float) -> tuple[float, float]:
         # x1 + w (1 - cos)/2 written with sin^2(theta/2) to keep digits near theta = 0
         return x1 + w * math.sin(0.5 * theta) ** 2
 
-    v_int, _ = integrate.quad(lambda th: math.sin(th) ** 2 / math.sqrt(x_of(th)), 0.0, math.pi, epsabs=0.0, epsrel=1e-13, limit=200)
+    v_int, _ = integrate.quad(lambda th: math.sin(th) ** 2 / math.sqrt(x_of(th)), 0.0, math.pi,
+                              epsabs=0.0, epsrel=1e-13, limit=200)
     if f == 0.0:
         return 1.0, -math.inf
     # the 1/sqrt(x) peak near theta = 0 has width ~ sqrt(x1/w); tell quad where it is
