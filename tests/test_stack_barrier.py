@@ -204,6 +204,25 @@ def test_image_force_staircase_lowers_the_barrier():
     assert_allclose(plain.barrier.u_start_eV[0] - top, 0.822, atol=0.01)
 
 
+def test_image_staircase_without_image_is_the_linear_barrier():
+    # Limit check: with a negligible image term (eps_inf -> infinity) the staircase
+    # of the linear profile converges to the exact Airy result (Gundlach,
+    # Solid-State Electron. 9, 949 (1966)), also above the barrier where the band
+    # falls below the emitter's Fermi level (FN regime, interference).
+    from solver.tunneling.current import current_density
+
+    data = make_stack(thickness_nm=(5.0,), permittivity=(3.9,), affinity_eV=(0.9,), band_gap_eV=(8.9,),
+                      optical_permittivity=(2.13,), electron_mass=(0.5,), hole_mass=(0.32,),
+                      charge_cm2=(0.0,), charge_position=(0.5,), names=("ox",))
+    flat = replace(data, optical_permittivity=(1e9,))
+    for field in (-6.0, -11.0):
+        st = stack_state(data, field_MV_cm=field, field_layer=0)
+        plain = stack_barrier(data, st, emitter="gate")
+        stair = stack_barrier(flat, st, emitter="gate", image_force=True, image_slices=1000)
+        j = [current_density(b.barrier, b.fermi_left_eV, b.fermi_right_eV, 300.0) for b in (plain, stair)]
+        assert_allclose(j[1], j[0], rtol=2e-3)
+
+
 def test_bad_inputs_name_the_field():
     with pytest.raises(ValueError, match="layer 1: thickness_nm"):
         make_stack(thickness_nm=(6.0, -1.0, 5.0))
