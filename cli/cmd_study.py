@@ -7,6 +7,7 @@ kept, only the missing ones are computed. Exit codes: 0 all points done,
 from __future__ import annotations
 
 import importlib
+import os
 import shlex
 import sys
 from pathlib import Path
@@ -92,7 +93,10 @@ def run(args) -> int:
                 print(f"{args.output}: all {total} points already finished ({failed} failed); "
                       "nothing to compute")
             return 1 if failed else 0
-        executor = make_executor(workers=args.workers, scheduler=args.scheduler,
+        workers = args.workers
+        if workers == 0 and args.scheduler is None and args.local_cluster is None:
+            workers = max(1, min(os.cpu_count() or 1, todo))  # no idle processes for a short study
+        executor = make_executor(workers=workers, scheduler=args.scheduler,
                                  local_cluster=args.local_cluster, warm_ups=plan.compute.warm_up)
         with executor:
             if not args.quiet:

@@ -168,3 +168,30 @@ def test_lock_excludes_second_writer_and_takes_over_stale(tmp_path):
     (tmp_path / "s.h5.lock").write_text(json.dumps({"pid": 1, "host": "elsewhere.invalid"}))
     with pytest.raises(StoreError, match=r"locked by pid 1 on host 'elsewhere.invalid'"):
         StudyLock(target).acquire()
+
+
+def test_run_file_commands(tmp_path, capsys):
+    from cli.main import main
+
+    path = write_run(tmp_path / "run.h5", case_text='title = "demo stack"\n', command="tunnelstack bands x",
+                     groups=_groups())
+    assert main(["show", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "tunnelstack run" in out and "case: demo stack" in out and "[bands]" in out
+    assert "density_cm3" in out and "carrier[2] x x_nm[11]" in out
+
+    assert main(["export", str(path), "--csv", str(tmp_path / "out.csv")]) == 0
+    lines = (tmp_path / "out-current-gate_V.csv").read_text().splitlines()
+    assert lines[2] == "gate_V,current_A_cm2" and lines[3] == "1.0,1e-12"
+    scalars = (tmp_path / "out-bands.csv").read_text()
+    assert "fermi_level_eV,-0.25,eV,channel Fermi level" in scalars
+
+    assert main(["plot", str(path), "--output-dir", str(tmp_path / "figs")]) == 0
+    names = sorted(p.name for p in (tmp_path / "figs").iterdir())
+    assert "run-current-current_A_cm2.png" in names and "run-bands-potential_V.png" in names
+
+    foreign = tmp_path / "foreign.h5"
+    with h5py.File(foreign, "w"):
+        pass
+    assert main(["show", str(foreign)]) == 2
+    assert "not written by tunnelstack" in capsys.readouterr().err

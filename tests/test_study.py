@@ -321,16 +321,36 @@ def test_process_pool_identical_and_warm_up_once_per_worker(tmp_path, monkeypatc
     assert len(pool_pids) == len(set(pool_pids)) <= 2  # once per worker, not per point
 
 
-def test_dask_local_cluster_identical(tmp_path):
-    pytest.importorskip("distributed")
+def test_dask_identical_local_cluster_and_scheduler_address(tmp_path, monkeypatch):
+    distributed = pytest.importorskip("distributed")
     from solver.executors import DaskExecutor
 
+    warm = tmp_path / "warm"
+    warm.mkdir()
+    monkeypatch.setenv(WARM_DIR_ENV, str(warm))
     case = grid_case(keep_profiles=True)
     run_file(tmp_path / "serial.h5", case)
-    with DaskExecutor(workers=2) as ex:
+    with DaskExecutor(workers=2, warm_ups=(record_warm_up,)) as ex:
         summary = run_file(tmp_path / "dask.h5", case, executor=ex)
     assert summary.computed == 12 and summary.failed == 4
     assert_same(arrays(tmp_path / "serial.h5"), arrays(tmp_path / "dask.h5"))
+    workers = [p for p in warm.iterdir() if not p.name.startswith(f"{os.getpid()}-")]
+    assert len(workers) == 2  # once on each of the two workers (not per point)
+    # a scheduler given by its address, listening on loopback only
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=True, host="127.0.0.1",
+                                  dashboard_address=None, silence_logs=50) as cluster:
+        assert cluster.scheduler_address.startswith("tcp://127.0.0.1:")
+        with DaskExecutor(address=cluster.scheduler_address) as ex:
+            run_file(tmp_path / "remote.h5", case, executor=ex)
+    assert_same(arrays(tmp_path / "serial.h5"), arrays(tmp_path / "remote.h5"))
+
+
+def test_dask_unreachable_scheduler_is_a_clear_error():
+    pytest.importorskip("distributed")
+    from solver.executors import DaskExecutor
+
+    with pytest.raises(CaseError, match=r"--scheduler tcp://127.0.0.1:9: cannot reach a Dask scheduler"):
+        DaskExecutor(address="tcp://127.0.0.1:9", timeout_s=1.0)
 
 
 # ---------------------------------------------------------------------------
@@ -596,3 +616,34 @@ def test_sizes_hook_reserves_room_up_front(tmp_path):
     d = read_study(tmp_path / "s.h5")
     assert d.profiles["x_nm"].values.shape == (3, 1, 121)
     assert_array_equal(d.lengths["node"][:, 0], [13, 37, 121])
+
+
+def test_show_plot_export_of_study_with_failures(tmp_path, capsys):
+    from cli.main import main
+
+    path = tmp_path / "s.h5"
+    run_file(path, grid_case(keep_profiles=True))
+    assert main(["show", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "completion: 12/12 points finished (100.0 %), 4 failed, 0 pending" in out
+    assert "layers.tunnel.thickness_nm = 3, bias.gate_V = 6: ValueError: gate_V = 6 is beyond" in out
+    assert "x_nm" in out and "profile over node" in out
+
+    assert main(["export", str(path), "--csv", str(tmp_path / "s.csv")]) == 0
+    rows = [ln for ln in (tmp_path / "s.csv").read_text().splitlines() if not ln.startswith("#")]
+    assert rows[0].split(",")[:5] == [THICK, GATE, "status", "capacitance_F_m2", "field_V_nm"]
+    assert rows[3].split(",")[2] == "failed" and rows[3].endswith("ValueError,gate_V = 6 is beyond this test's range")
+    assert rows[1].split(",")[2] == "done" and float(rows[1].split(",")[4]) == pytest.approx(1 / 3)
+
+    figs = tmp_path / "figs"
+    assert main(["plot", str(path), "--output-dir", str(figs), "--over", THICK]) == 0
+    assert main(["plot", str(path), "--output-dir", str(figs), "--quantity", "u_eV"]) == 0
+    names = {p.name for p in figs.iterdir()}
+    assert {"s-capacitance_F_m2-map.png", f"s-field_V_nm-over-{THICK}.png", "s-u_eV-profiles.png"} <= names
+    assert main(["plot", str(path), "--quantity", "field_nm"]) == 2
+    assert "Did you mean 'field_V_nm'" in capsys.readouterr().err
+
+    zpath = tmp_path / "z.h5"
+    run_file(zpath, PlateCase(study=Spec((Axis(GATE, (1e-3, 1e-2, 1e-1, 1.0), "log"),))))
+    assert main(["plot", str(zpath), "--output-dir", str(figs), "--quantity", "field_V_nm"]) == 0
+    assert (figs / "z-field_V_nm.png").exists()
