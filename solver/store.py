@@ -40,6 +40,7 @@ not HDF5, truncated or corrupt, or not written by tunnelstack.
 from __future__ import annotations
 
 import datetime as _dt
+import glob
 import os
 import tempfile
 from dataclasses import dataclass
@@ -851,6 +852,9 @@ def open_study(
         raise StoreError(f"{target}: directory {directory} does not exist")
     lock = StudyLock(target, notice=notice).acquire()
     try:
+        # temp files of a writer killed while creating or rebuilding this file
+        for stale in directory.glob(f".{glob.escape(target.name)}.*.tmp"):
+            stale.unlink(missing_ok=True)
         if target.exists():
             try:
                 kind = file_kind(target)

@@ -533,10 +533,18 @@ class Progress:
         self.min_interval_s = min_interval_s
         self._last = 0.0
         self._width = 0
+        self._first = None
 
     def line(self, done_now: int, failed: int) -> str:
-        elapsed = time.monotonic() - self.start
-        rate = done_now / elapsed if elapsed > 0 else 0.0
+        now = time.monotonic()
+        elapsed = now - self.start
+        if done_now and self._first is None:
+            self._first = (now, done_now)
+        # rate from the first finished point on: worker start-up is not a point's cost
+        if self._first is not None and done_now > self._first[1] and now > self._first[0]:
+            rate = (done_now - self._first[1]) / (now - self._first[0])
+        else:
+            rate = done_now / elapsed if elapsed > 0 and done_now else 0.0
         remaining = self.total - self.done_before - done_now
         eta = remaining / rate if rate > 0 else float("inf")
         done = self.done_before + done_now

@@ -539,36 +539,38 @@ def _cli(*argv, timeout=120, **kw):
                           text=True, timeout=timeout, **kw)
 
 
-def test_cli_study_show_export_plot(tmp_path):
+def test_cli_study_show_export_plot(tmp_path, capsys):
     pytest.importorskip("solver.case")
+    from cli.main import main
+
     case_path = tmp_path / "cell.toml"
     case_path.write_text(REAL_CASE)
     out = tmp_path / "cell.h5"
-    r = _cli("study", str(case_path), "--output", str(out), "--workers", "1")
-    assert r.returncode == 0, r.stderr
-    assert "26/26 points finished, 0 failed" in r.stdout
-    r = _cli("study", str(case_path), "--output", str(out), "--workers", "1")
-    assert r.returncode == 0 and "already finished" in r.stdout
-    r = _cli("show", str(out))
-    assert r.returncode == 0, r.stderr
-    assert "completion: 26/26 points finished (100.0 %), 0 failed, 0 pending" in r.stdout
-    assert "layers.tunnel.thickness_nm" in r.stdout and "eot_nm" in r.stdout
-    r = _cli("export", str(out), "--csv")
-    assert r.returncode == 0, r.stderr
+    (tmp_path / ".cell.h5.abc123.tmp").write_bytes(b"left by a killed writer")
+    assert main(["study", str(case_path), "--output", str(out), "--workers", "1"]) == 0
+    assert "26/26 points finished, 0 failed" in capsys.readouterr().out
+    assert not (tmp_path / ".cell.h5.abc123.tmp").exists()
+    assert main(["study", str(case_path), "--output", str(out), "--workers", "1"]) == 0
+    assert "already finished" in capsys.readouterr().out
+    assert main(["show", str(out)]) == 0
+    shown = capsys.readouterr().out
+    assert "completion: 26/26 points finished (100.0 %), 0 failed, 0 pending" in shown
+    assert "layers.tunnel.thickness_nm" in shown and "eot_nm" in shown
+    assert main(["export", str(out), "--csv"]) == 0
     lines = (tmp_path / "cell.csv").read_text().splitlines()
     assert lines[0].startswith("# tunnelstack study")
     header = [ln for ln in lines if not ln.startswith("#")][0].split(",")
     assert header[:3] == ["layers.tunnel.thickness_nm", "bias.gate_V", "status"]
     assert len([ln for ln in lines if not ln.startswith("#")]) == 27
-    r = _cli("plot", str(out), "--output-dir", str(tmp_path / "figs"), "--quantity", "eot_nm")
-    assert r.returncode == 0, r.stderr
+    assert main(["plot", str(out), "--output-dir", str(tmp_path / "figs"), "--quantity", "eot_nm"]) == 0
     assert (tmp_path / "figs" / "cell-eot_nm-map.png").stat().st_size > 1000
+    capsys.readouterr()
 
     case_path.write_text(REAL_CASE.replace("count = 13", "count = 7"))
     r = _cli("study", str(case_path), "--output", str(out), "--workers", "1")
     assert r.returncode == 2 and "use --restart" in r.stderr and "Traceback" not in r.stderr
-    r = _cli("show", str(tmp_path / "missing.h5"))
-    assert r.returncode == 2 and "missing.h5: no such file" in r.stderr
+    assert main(["show", str(tmp_path / "missing.h5")]) == 2
+    assert "missing.h5: no such file" in capsys.readouterr().err
 
 
 def test_cli_ctrl_c_then_resume(tmp_path):
@@ -647,3 +649,31 @@ def test_show_plot_export_of_study_with_failures(tmp_path, capsys):
     run_file(zpath, PlateCase(study=Spec((Axis(GATE, (1e-3, 1e-2, 1e-1, 1.0), "log"),))))
     assert main(["plot", str(zpath), "--output-dir", str(figs), "--quantity", "field_V_nm"]) == 0
     assert (figs / "z-field_V_nm.png").exists()
+
+
+def test_progress_line_on_a_terminal_only(monkeypatch):
+    import io
+
+    from solver.study import Progress
+
+    class Tty(io.StringIO):
+        def isatty(self):
+            return True
+
+    monkeypatch.delenv("CI", raising=False)
+    tty = Tty()
+    p = Progress(10, done_before=2, stream=tty, min_interval_s=0.0)
+    p.update(1, 0)
+    time.sleep(0.02)
+    p.update(3, 1)
+    p.close(3, 1)
+    text = tty.getvalue()
+    assert text.startswith("\r3/10 points") and "5/10 points, 1 failed" in text and "ETA" in text
+    assert text.endswith("\n")
+    quiet = io.StringIO()  # not a terminal: nothing
+    Progress(10, stream=quiet).update(1, 0, force=True)
+    assert quiet.getvalue() == ""
+    monkeypatch.setenv("CI", "true")
+    tty = Tty()
+    Progress(10, stream=tty).update(1, 0, force=True)
+    assert tty.getvalue() == ""
