@@ -231,34 +231,62 @@ class Poisson:
             return Q_C * self._dit * math.copysign(self._iface_half_gap, e), 0.0
         return Q_C * self._dit * e, -Q_C * Q_C * self._dit
 
+    def _band_integrals(self, eta):
+        """(F_1/2, F_-1/2) of all reduced energies in one call each (the
+        statistics module's integrals; Boltzmann: exp for both)."""
+        if self.statistics == "boltzmann":
+            with np.errstate(over="ignore"):
+                f = np.exp(eta)
+            return f, f
+        return stat.fermi_dirac_half(eta), stat.fermi_dirac_minus_half(eta)
+
     def charge(self, phi: np.ndarray, gate_V: float, quantum: QuantumCharge | None = None):
-        """Box charges Q (C/m^2 or C/m/rad per node) and dQ/dphi."""
+        """Box charges Q (C/m^2 or C/m/rad per node) and dQ/dphi.
+
+        Carriers n = N_c F_1/2((E_F - E_c)/kT), p = N_v F_1/2((E_v - E_F)/kT)
+        (Blakemore normalisation, solver.statistics) with E_c = E_c0 - q phi;
+        the reduced energies of every region and both carriers are evaluated
+        in one call, since the cost of the integrals is per call here."""
         s = self.s
         Q = s.fixed_charge.copy()
         dQ = np.zeros(s.size)
-        st = self.statistics
+        kT = self.kT
+        etas = []
         for d in self._semi:
+            ef = self.fermi_level_J(d["sr"].role, gate_V)
+            ec = d["ec0"] - Q_C * phi[d["nodes"]]
+            etas.append((ef - ec) / kT)
+            etas.append((ec - d["gap"] - ef) / kT)
+        f, fm = self._band_integrals(np.concatenate(etas))
+        pos = 0
+        qkT = Q_C / kT
+        for k, d in enumerate(self._semi):
             nodes = d["nodes"]
-            role = d["sr"].role
-            ef = self.fermi_level_J(role, gate_V)
+            m = nodes.size
             sp = d["sr"].spec
-            with np.errstate(over="ignore", invalid="ignore"):
+            n = sp.conduction_dos_m3 * f[pos:pos + m]
+            dn = sp.conduction_dos_m3 * qkT * fm[pos:pos + m]
+            p = sp.valence_dos_m3 * f[pos + m:pos + 2 * m]
+            dp = -sp.valence_dos_m3 * qkT * fm[pos + m:pos + 2 * m]
+            pos += 2 * m
+            if quantum is not None and d["sr"].role == "channel":
+                wn = quantum.electron_weight[nodes]
+                wp = quantum.hole_weight[nodes]
+                n, dn, p, dp = n * wn, dn * wn, p * wp, dp * wp
+            rho = p - n
+            drho = dp - dn
+            if d["ion"] == "complete":
+                rho = rho + (sp.donors_m3 - sp.acceptors_m3)
+            else:
+                ef = self.fermi_level_J(d["sr"].role, gate_V)
                 ec = d["ec0"] - Q_C * phi[nodes]
-                ev = ec - d["gap"]
-                n, dn = stat.electron_density(ec, ef, sp.conduction_dos_m3, self.T, st)
-                p, dp = stat.hole_density(ev, ef, sp.valence_dos_m3, self.T, st)
-                if quantum is not None and role == "channel":
-                    wn = quantum.electron_weight[nodes]
-                    wp = quantum.hole_weight[nodes]
-                    n, dn, p, dp = n * wn, dn * wn, p * wp, dp * wp
-                rho = p - n
-                drho = dp - dn
                 if sp.donors_m3 > 0:
                     nd, dnd = stat.ionized_donors(sp.donors_m3, ec, ef, d["ed"], self.T, d["ion"])
                     rho = rho + nd
                     drho = drho + dnd
                 if sp.acceptors_m3 > 0:
-                    na, dna = stat.ionized_acceptors(sp.acceptors_m3, ev, ef, d["ea"], self.T, d["ion"])
+                    na, dna = stat.ionized_acceptors(sp.acceptors_m3, ec - d["gap"], ef, d["ea"],
+                                                     self.T, d["ion"])
                     rho = rho - na
                     drho = drho - dna
             Q[nodes] += Q_C * d["vol"] * rho

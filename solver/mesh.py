@@ -576,7 +576,9 @@ def _dielectric_spec(name, mat, thickness_nm, charge_cm2=0.0, position=0.5) -> D
 def structure_from_case(case, *, depth_nm: float | None = None,
                         quantum_depth_nm: float | None = None,
                         interface_spacing_nm: float | None = None,
-                        max_spacing_nm: float | None = None) -> Structure:
+                        max_spacing_nm: float | None = None,
+                        growth: float | None = None,
+                        quantum_spacing_nm: float | None = None) -> Structure:
     """The `Structure` of a validated `solver.case.Case` (keyword arguments
     override the case's [mesh] table)."""
     T = case.temperature_K
@@ -588,7 +590,8 @@ def structure_from_case(case, *, depth_nm: float | None = None,
     opts = MeshOptions(
         interface_spacing_m=pick(interface_spacing_nm, m.interface_spacing_nm) * NM_TO_M,
         max_spacing_m=pick(max_spacing_nm, m.max_spacing_nm) * NM_TO_M,
-        growth=m.growth,
+        growth=pick(growth, m.growth),
+        quantum_spacing_m=pick(quantum_spacing_nm, MeshOptions.quantum_spacing_m * 1e9) * NM_TO_M,
         depth_m=None if pick(depth_nm, m.depth_nm) is None else pick(depth_nm, m.depth_nm) * NM_TO_M,
         quantum_depth_m=(None if pick(quantum_depth_nm, m.quantum_depth_nm) is None
                          else pick(quantum_depth_nm, m.quantum_depth_nm) * NM_TO_M),

@@ -74,9 +74,12 @@ __all__ = ["Solution", "solve", "solve_structure", "prepare"]
 
 OUTER_TOLERANCE_V = 1e-8
 INNER_TOLERANCE_V = 1e-9       # Newton tolerance of the Poisson solves near convergence
-INNER_TOLERANCE_MAX_V = 1e-4
+INNER_TOLERANCE_MAX_V = 1e-3
+INNER_FRACTION = 0.1
 MAX_OUTER_ITERATIONS = 30
+ANDERSON_DEPTH = 3
 SUBBANDS_REPORTED = 10      # lowest subbands per valley set listed in Solution.subbands
+SCHRODINGER_MIN_SPACING_M = 0.02e-9
 NEGLIGIBLE_SHEET_M2 = 1e7   # 1e3 carriers per cm^2
 TAIL_KT = 12.0              # states are added until the highest lies this far above max(E_F, E_0)
 
@@ -157,10 +160,22 @@ class _Valleys:
         diel_mass = np.array([r.electron_mass if carrier == "e" else r.hole_mass for r in regions])
         x = s.x_m[q]
         radial = s.geometry == "cylindrical"
+        # Schrödinger grid: the box nodes thinned to a spacing of at least
+        # SCHRODINGER_MIN_SPACING_M (the Poisson mesh may be far finer at the
+        # interface than the wavefunctions need), keeping the box ends and the
+        # dielectric/channel interface node (the mass step)
+        iface = int(np.searchsorted(q, s.interface_node))
+        sub = _thin(x, SCHRODINGER_MIN_SPACING_M, keep=(iface,))
+        self.sub = sub
+        xs = x[sub]
+        j = np.clip(np.searchsorted(xs, x, side="right") - 1, 0, xs.size - 2)
+        self._ij = j
+        self._wj = (x - xs[j]) / (xs[j + 1] - xs[j])
+        self._box_volume = (s.vol_left + s.vol_right)[q]
         self.valleys = []
         for v in bands:
-            mass = np.where(in_semi, v.quantization_mass, diel_mass)
-            ham = Hamiltonian.radial(x, mass, 0) if radial else Hamiltonian.planar(x, mass)
+            mass = np.where(in_semi, v.quantization_mass, diel_mass)[sub]
+            ham = Hamiltonian.radial(xs, mass, 0) if radial else Hamiltonian.planar(xs, mass)
             dos = float(stat.subband_dos_m2_J(v.degeneracy, v.dos_mass))
             self.valleys.append(dict(valley=v, ham=ham, dos=dos, count=min(8, ham.unknowns.size)))
         # potential energy at phi = 0: electrons E_c0 + offset, holes -(E_v0) + offset
@@ -172,21 +187,48 @@ class _Valleys:
     def solve(self, phi_box, fermi_J):
         """States of every valley set: list of (valley, E_J (electron energy
         scale), psi2 (box nodes x k) as density per unit sheet density, dos)."""
-        u_base = self.u0 - self.sign * Q_C * phi_box
+        u_base = (self.u0 - self.sign * Q_C * phi_box)[self.sub]
         ef = fermi_J if self.carrier == "e" else -fermi_J  # hole-energy scale
         out = []
         for d in self.valleys:
             v, ham = d["valley"], d["ham"]
             u = u_base + v.offset_eV * EV_TO_J
             k = d["count"]
+            kmax = ham.unknowns.size
             while True:
                 E, psi = ham.solve(u, k)
-                if E[-1] >= max(ef, E[0]) + TAIL_KT * self.kT or k >= ham.unknowns.size:
+                cutoff = max(ef, E[0]) + TAIL_KT * self.kT
+                if E[-1] >= cutoff or k >= kmax:
                     break
-                k = min(2 * k, ham.unknowns.size)
-            d["count"] = k
-            out.append((v, E, psi * psi * self.scale, d["dos"]))
+                k = min(k + max(4, k // 2), kmax)
+            # next time: the states below the cutoff and two more
+            d["count"] = min(max(4, int(np.count_nonzero(E < cutoff)) + 2), kmax)
+            out.append((v, E, self._on_box(psi * psi), d["dos"]))
         return out
+
+    def _on_box(self, psi2_sub):
+        """|psi|^2 interpolated linearly onto the box nodes, normalised with the
+        Poisson boxes (sum V |psi|^2 = 1 planar, = R_channel radial) so that the
+        subband populations are exactly the carriers Poisson sees."""
+        j, w = self._ij, self._wj[:, None]
+        psi2 = psi2_sub[j] * (1.0 - w) + psi2_sub[j + 1] * w
+        norm = self._box_volume @ psi2
+        return psi2 * (self.scale / np.where(norm > 0, norm, 1.0))
+
+
+def _thin(x, h_min, keep=()):
+    """Indices of a subset of the increasing nodes x with spacing >= h_min
+    (approximately), always containing the ends and the indices in `keep`."""
+    keep = set(int(k) for k in keep) | {0, x.size - 1}
+    out = [0]
+    for i in range(1, x.size - 1):
+        if i in keep or (x[i] - x[out[-1]] >= h_min and x[-1] - x[i] >= 0.5 * h_min):
+            out.append(i)
+        elif i + 1 in keep and out[-1] != i and x[i + 1] - x[out[-1]] > 2 * h_min:
+            out.append(i)
+    out.append(x.size - 1)
+    idx = np.array(sorted(set(out)))
+    return idx
 
 
 class _QuantumChannel:
@@ -334,6 +376,32 @@ def prepare(case_or_structure, statistics: str = "fermi-dirac", quantum: bool = 
     return prep
 
 
+class _Anderson:
+    """Anderson mixing of a fixed-point iteration x <- x + r(x) (D. G. Anderson,
+    J. ACM 12, 547 (1965); type II with unit mixing), restarted when the
+    residual grows."""
+
+    def __init__(self, depth: int):
+        self.depth = depth
+        self.x = []
+        self.r = []
+
+    def step(self, x, r):
+        if self.r and np.abs(r).max() > np.abs(self.r[-1]).max():
+            self.x, self.r = [], []
+        self.x.append(x.copy())
+        self.r.append(r.copy())
+        if len(self.r) > self.depth + 1:
+            self.x.pop(0)
+            self.r.pop(0)
+        if len(self.r) < 2:
+            return x + r
+        dR = np.diff(np.array(self.r), axis=0).T
+        dX = np.diff(np.array(self.x), axis=0).T
+        gamma, *_ = np.linalg.lstsq(dR, r, rcond=None)
+        return x + r - (dX + dR) @ gamma
+
+
 # --------------------------------------------------------------------------- solve
 def solve(case, gate_V=None, quantum=True, statistics="fermi-dirac") -> Solution:
     """Self-consistent electrostatics of `case` at `gate_V` (default: the
@@ -352,10 +420,13 @@ def solve(case, gate_V=None, quantum=True, statistics="fermi-dirac") -> Solution
 def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=None,
                     tolerance_V: float = OUTER_TOLERANCE_V,
                     max_iterations: int = MAX_OUTER_ITERATIONS,
-                    scheme: str = "predictor-corrector", relaxation: float = 0.3) -> Solution:
+                    scheme: str = "predictor-corrector", relaxation: float = 0.3,
+                    acceleration: bool = True) -> Solution:
     """Solve a prepared structure. `phi0`: initial potential (continuation).
     `scheme="under-relaxed"` (plain iteration phi <- phi + a (P[n(phi)] - phi),
-    a = `relaxation`) exists as the baseline of the benchmarks."""
+    a = `relaxation`) exists as the baseline of the benchmarks.
+    `acceleration`: Anderson mixing (depth ANDERSON_DEPTH) of the
+    predictor–corrector iterates, reset whenever the residual grows."""
     P = prep.poisson
     s = prep.structure
     newton_total = 0
@@ -375,6 +446,7 @@ def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=No
     it = 0
     active = (False, False)
     inner_tol = INNER_TOLERANCE_MAX_V
+    mixer = _Anderson(ANDERSON_DEPTH)
     for it in range(1, max_iterations + 1):
         active = qc.active_carriers(phi, gate_V, active)
         states = qc.states(phi, active)
@@ -391,14 +463,19 @@ def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=No
         if not rec.converged:
             history.append(float("nan"))
             break
-        delta = float(np.abs(new - phi).max())
+        residual = new - phi
+        delta = float(np.abs(residual).max())
         history.append(delta)
-        phi = new
         # inexact inner solves while the outer loop is far from converged
-        inner_tol = min(max(0.01 * delta, INNER_TOLERANCE_V), INNER_TOLERANCE_MAX_V)
+        inner_tol = min(max(INNER_FRACTION * delta, INNER_TOLERANCE_V), INNER_TOLERANCE_MAX_V)
         if delta <= tolerance_V:
+            phi = new
             converged = True
             break
+        if scheme == "predictor-corrector" and acceleration:
+            phi = mixer.step(phi, residual)
+        else:
+            phi = new
     record = ConvergenceRecord(
         converged=converged, iterations=it, residual_history=tuple(history),
         message=("converged" if converged else
