@@ -2,10 +2,12 @@
 
 Three regions:
 
-* |z| <= 10: Taylor series of y'' = z y about the nearest of 81 anchors
-  (spacing 0.25, |h| <= 0.125, 18 terms: truncation below 1e-17 relative).
+* |z| <= 10: Taylor series of y'' = z y about the nearest of 161 anchors
+  (spacing 1/8, |h| <= 1/16, degree 12; the n-th term is about
+  (sqrt(|z|) h)^n / n! <= 0.2^n / n!, so truncation stays below 1e-18 relative).
+  Coefficients come from the recurrence c_(n+2) = (z0 c_n + c_(n-1))/((n+1)(n+2)).
   The anchor values are computed once at import with the Maclaurin series in
-  80-digit decimal arithmetic; the constants Ai(0), -Ai'(0) come from the
+  80-digit decimal arithmetic (also the Taylor coefficients); the constants Ai(0), -Ai'(0) come from the
   same computation (Wronskian of the Maclaurin pair with the asymptotic Ai(20),
   accurate to about 1e-50), so nothing is taken from a table by hand.
 * z > 10: the asymptotic series of Ai, Ai', Bi, Bi' with the factors
@@ -35,9 +37,9 @@ import numpy as np
 __all__ = ["airy", "airy_scaled", "airy_scaled_kernel", "airy_negative_asymptotic", "ZETA_SWITCH_Z"]
 
 ZETA_SWITCH_Z = 10.0          # |z| beyond which the asymptotic series are used
-_ANCHOR_STEP = 0.25
-_N_ANCHORS = 81               # anchors at -10, -9.75, ..., 10
-_N_TAYLOR = 18
+_ANCHORS_PER_UNIT = 8
+_N_ANCHORS = 161              # anchors at -10, -9.875, ..., 10
+_N_TAYLOR = 13
 _N_ASYM = 40                  # at zeta >= 21 the terms fall below 1e-17 before k = 30
 
 _PI_DIGITS = "3.14159265358979323846264338327950288419716939937510582097494459"
@@ -113,61 +115,55 @@ def _anchor_table():
         c1 = ai20 * gp - aip20 * g
         c2 = ai20 * fp - aip20 * f
         sqrt3 = Decimal(3).sqrt()
-        table = np.empty((_N_ANCHORS, 4))
+        # Taylor coefficients about each anchor, in decimal: y = sum c_n h^n,
+        # c_(n+2) = (z0 c_n + c_(n-1)) / ((n+1)(n+2)); rows: Ai, Ai', Bi, Bi'
+        table = np.empty((_N_ANCHORS, _N_TAYLOR, 4))
         for j in range(_N_ANCHORS):
-            zj = Decimal(-10) + Decimal(j) / 4
+            zj = Decimal(-10) + Decimal(j) / _ANCHORS_PER_UNIT
             if zj == 0:
                 f, fp, g, gp = Decimal(1), Decimal(0), Decimal(0), Decimal(1)
             else:
                 f, fp, g, gp = maclaurin(zj)
-            table[j, 0] = float(c1 * f - c2 * g)
-            table[j, 1] = float(c1 * fp - c2 * gp)
-            table[j, 2] = float(sqrt3 * (c1 * f + c2 * g))
-            table[j, 3] = float(sqrt3 * (c1 * fp + c2 * gp))
+            for row, (y0, y1) in enumerate(((c1 * f - c2 * g, c1 * fp - c2 * gp),
+                                            (sqrt3 * (c1 * f + c2 * g), sqrt3 * (c1 * fp + c2 * gp)))):
+                c = [y0, y1]
+                for n in range(_N_TAYLOR - 1):
+                    c.append((zj * c[n] + (c[n - 1] if n > 0 else 0)) / ((n + 1) * (n + 2)))
+                for n in range(_N_TAYLOR):
+                    table[j, n, 2 * row] = float(c[n])
+                    table[j, n, 2 * row + 1] = float((n + 1) * c[n + 1])
     return table
 
 
 _ANCHORS = _anchor_table()
 _U, _V = _asymptotic_coefficients(_N_ASYM)
-_INV_NN = np.array([1.0 / ((n + 1.0) * (n + 2.0)) for n in range(_N_TAYLOR)])   # Taylor recurrence factors
 _INV_SQRT_PI = 1.0 / math.sqrt(math.pi)
 _QUARTER_PI = 0.25 * math.pi
 
 
-@numba.njit(cache=True, error_model="numpy")
+@numba.njit(cache=True, error_model="numpy", inline="always")
 def _taylor(z, anchors):
-    """Unscaled Ai, Ai', Bi, Bi' for |z| <= 10 (Taylor series about an anchor)."""
-    j = int(math.floor((z + 10.0) * 4.0 + 0.5))
+    """Unscaled Ai, Ai', Bi, Bi' for |z| <= 10 (Taylor polynomials about an anchor).
+
+    anchors[j, n, f]: coefficient of h^n of function f (Ai, Ai', Bi, Bi') about
+    z_j; four independent Horner chains side by side.
+    """
+    j = int(math.floor((z + 10.0) * _ANCHORS_PER_UNIT + 0.5))
     if j < 0:
         j = 0
     elif j > _N_ANCHORS - 1:
         j = _N_ANCHORS - 1
-    z0 = -10.0 + 0.25 * j
-    h = z - z0
-    # y(z0 + h) = sum c_n h^n, c_(n+2) = (z0 c_n + c_(n-1)) / ((n+1)(n+2))
-    a_m1 = 0.0
-    a0 = anchors[j, 0]
-    a1 = anchors[j, 1]
-    b_m1 = 0.0
-    b0 = anchors[j, 2]
-    b1 = anchors[j, 3]
-    ai = a0 + a1 * h
-    aip = a1
-    bi = b0 + b1 * h
-    bip = b1
-    hn = h            # h^(n+1) for the value, h^n for the derivative
-    for n in range(_N_TAYLOR - 2):
-        inv = _INV_NN[n]
-        a2 = (z0 * a0 + a_m1) * inv
-        b2 = (z0 * b0 + b_m1) * inv
-        # derivative term (n+2) c_(n+2) h^(n+1), value term c_(n+2) h^(n+2)
-        aip += (n + 2.0) * a2 * hn
-        bip += (n + 2.0) * b2 * hn
-        hn *= h
-        ai += a2 * hn
-        bi += b2 * hn
-        a_m1, a0, a1 = a0, a1, a2
-        b_m1, b0, b1 = b0, b1, b2
+    h = z - (-10.0 + j / _ANCHORS_PER_UNIT)
+    n = _N_TAYLOR - 1
+    ai = anchors[j, n, 0]
+    aip = anchors[j, n, 1]
+    bi = anchors[j, n, 2]
+    bip = anchors[j, n, 3]
+    for k in range(n - 1, -1, -1):
+        ai = ai * h + anchors[j, k, 0]
+        aip = aip * h + anchors[j, k, 1]
+        bi = bi * h + anchors[j, k, 2]
+        bip = bip * h + anchors[j, k, 3]
     return ai, aip, bi, bip
 
 
@@ -265,7 +261,7 @@ def _zeta_double_double(x):
     return hi, lo3 - (hi - p3)
 
 
-@numba.njit(cache=True, error_model="numpy")
+@numba.njit(cache=True, error_model="numpy", inline="always")
 def airy_scaled_kernel(z, anchors, u, v):
     """(ai, aip, bi, bip, zeta_plus) at real z.
 
