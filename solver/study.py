@@ -27,9 +27,10 @@ holds the results, the completion mask and the per-point errors):
         summary = run_study(plan, sink, executor=ProcessExecutor())
 
 A point that raises is recorded with its exception type and message, and the
-study goes on. Ctrl-C stops submitting, cancels what has not started, saves
-what finishes, and raises StudyInterrupted (a KeyboardInterrupt) carrying the
-summary; running the same study on the same file again resumes it.
+study goes on. Ctrl-C (SIGINT) stops submitting and cancels what has not
+started; the running points finish and are saved (a second Ctrl-C abandons
+them); then StudyInterrupted (a KeyboardInterrupt) is raised carrying the
+summary. Running the same study on the same file again resumes it.
 """
 from __future__ import annotations
 
@@ -39,7 +40,9 @@ import json
 import math
 import os
 import pickle
+import signal
 import sys
+import threading
 import time
 import traceback
 from dataclasses import dataclass, field
@@ -648,10 +651,12 @@ def run_study(
     computed = 0
     failed_now = 0
     start = time.monotonic()
+    failed_base = 0 if retry_failed else _failed0
     interrupted = False
+    stop = {"requests": 0}
 
     def submit_more():
-        while len(in_flight) < max_in_flight:
+        while len(in_flight) < max_in_flight and not stop["requests"]:
             index = next(todo, None)
             if index is None:
                 return
@@ -678,39 +683,55 @@ def run_study(
             sink.write(outcome)
             computed += 1
             failed_now += 0 if outcome.ok else 1
-        progress.update(computed, _failed0 + failed_now if not retry_failed else failed_now)
+        progress.update(computed, failed_base + failed_now)
 
+    def on_sigint(signum, frame):
+        # first Ctrl-C: stop submitting, let running points finish and be saved;
+        # second: abandon them (KeyboardInterrupt from wherever the loop is)
+        stop["requests"] += 1
+        if stop["requests"] > 1:
+            raise KeyboardInterrupt
+        progress.close(computed, failed_base + failed_now)
+        notice("stopping: no new points; finishing the running ones "
+               "(press Ctrl-C again to abandon them)")
+
+    installed, previous = False, None
+    if threading.current_thread() is threading.main_thread():
+        previous = signal.signal(signal.SIGINT, on_sigint)
+        installed = True
     try:
         try:
             submit_more()
             while in_flight:
+                if stop["requests"] and not stop.get("cancelled"):
+                    stop["cancelled"] = True
+                    executor.cancel_pending(list(in_flight))
+                    for f in [f for f in in_flight if f.cancelled()]:
+                        in_flight.pop(f)
+                    if not in_flight:
+                        break
                 done, _ = executor.wait(list(in_flight), timeout=0.5)
                 collect(done)
                 submit_more()
-                progress.update(computed, _failed0 + failed_now)
+                progress.update(computed, failed_base + failed_now)
+            interrupted = bool(stop["requests"])
         except KeyboardInterrupt:
             interrupted = True
+            if not stop["requests"]:
+                progress.close(computed, failed_base + failed_now)
+                stop["requests"] = 1
             executor.cancel_pending(list(in_flight))
-            running = [f for f in in_flight if not f.cancelled()]
-            for f in [f for f in in_flight if f.cancelled()]:
-                in_flight.pop(f)
-            progress.close(computed, _failed0 + failed_now)
-            if running:
-                notice(f"stopping: finishing {len(running)} running point(s); "
-                       "press Ctrl-C again to abandon them")
-            try:
-                while in_flight:
-                    done, _ = executor.wait(list(in_flight), timeout=0.5)
-                    collect(done)
-            except KeyboardInterrupt:
-                executor.abandon()
-                in_flight.clear()
+            executor.abandon()
+            in_flight.clear()
     finally:
+        if installed:
+            signal.signal(signal.SIGINT, previous if previous is not None else signal.default_int_handler)
         if own:
             executor.close()
-    if not interrupted:
-        progress.close(computed, _failed0 + failed_now)
+    if not stop["requests"]:
+        progress.close(computed, failed_base + failed_now)
     finished, failed, total = sink.counts()
+    interrupted = interrupted and finished < total
     summary = StudySummary(
         total=total,
         finished=finished,

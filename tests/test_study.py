@@ -677,3 +677,29 @@ def test_progress_line_on_a_terminal_only(monkeypatch):
     tty = Tty()
     Progress(10, stream=tty).update(1, 0, force=True)
     assert tty.getvalue() == ""
+
+
+def self_interrupting_point(case):
+    """Presses Ctrl-C (SIGINT to its own process) while computing the 3 nm point."""
+    if case.value_at(THICK) == 3.0 and case.value_at(GATE) == 2.0:
+        os.kill(os.getpid(), signal.SIGINT)
+    return plate_point(case)
+
+
+register_computation("test-self-interrupt", self_interrupting_point, _OUTPUTS, replace=True)
+
+
+def test_first_ctrl_c_finishes_the_running_point(tmp_path):
+    case = grid_case(compute="test-self-interrupt")
+    notes = []
+    plan = plan_study(case)
+    with open_study(tmp_path / "s.h5", plan, case_text=case.text, command="test") as sink:
+        with pytest.raises(StudyInterrupted) as info:
+            run_study(plan, sink, notice=notes.append)
+    # points 0 and 1 done, point 1 (3 nm, 2 V) pressed Ctrl-C and still finished
+    assert info.value.summary.finished == 2 and info.value.summary.computed == 2
+    assert any("press Ctrl-C again to abandon" in n for n in notes)
+    assert signal.getsignal(signal.SIGINT) is signal.default_int_handler  # handler given back
+    d = read_study(tmp_path / "s.h5")
+    assert d.completed.ravel()[:2].all() and not d.completed.ravel()[2:].any()
+    assert d.outputs["field_V_nm"].values[0, 1] == 2.0 / 3.0
