@@ -195,3 +195,45 @@ def test_cylindrical_cells_solve(core):
     assert 0.5 < sol.charge_centroid_nm < 4.0
     classical = solve(case, 2.0, quantum=False)
     assert classical.charge_centroid_nm < sol.charge_centroid_nm
+
+
+def test_quantized_majority_carriers_recover_the_bulk_density(case17):
+    # bulk limit: away from the wall a wide box of closely spaced subbands holds the
+    # classical density N_v F_1/2 (Ando, Fowler, Stern 1982, Sec. III; the ladders' 2-D
+    # DOS are normalised to the data's N_c, N_v); next to the wall the dark space remains
+    # (Stern, Phys. Rev. B 5, 4891 (1972))
+    q = solve(case17, -0.746, quantum=True)      # about flat band (V_FB = -0.746 V)
+    c = solve(case17, -0.746, quantum=False)
+    depth = np.array(q.x_nm) - 5.0
+    mid = (depth > 4.0) & (depth < 9.0)
+    ratio = np.array(q.hole_density_cm3)[mid] / np.array(c.hole_density_cm3)[mid]
+    assert np.all(np.abs(ratio - 1) < 0.1)
+    wall = np.argmin(np.abs(depth - 0.3))
+    assert q.hole_density_cm3[wall] < 0.1 * c.hole_density_cm3[wall]
+
+
+def test_poly_gate_cell_solves_with_poly_depletion():
+    # n+ poly-Si gate: the gate depletes in inversion of the p-type channel
+    # (Sze & Ng 2007, Sec. 4.2), so less voltage reaches the oxide than with a metal of
+    # the same work function
+    text = """
+[gate]
+material = "Si"
+donors_cm3 = 1e20
+[[layers]]
+name = "oxide"
+material = "SiO2"
+thickness_nm = 3.0
+[channel]
+acceptors_cm3 = 1e17
+"""
+    case = parse_case(text)
+    sol = solve(case, 2.0, quantum=True)
+    assert sol.x_nm[0] < 0.0 and sol.interfaces_nm[0] == 0.0
+    metal = parse_case(text.replace('material = "Si"\ndonors_cm3 = 1e20',
+                                    f'material = "TiN"\nwork_function_eV = {sol.flatband_V + 4.05 + 1.1245 - 0.0258520 * math.log(3.1e19 / 1e17):.6f}'))
+    sm = solve(metal, 2.0, quantum=True)
+    assert sm.flatband_V == pytest.approx(sol.flatband_V, abs=2e-3)
+    assert sol.inversion_charge_cm2 < sm.inversion_charge_cm2
+    poly_drop = sol.potential_V[0] - sol.potential_V[int(np.argmin(np.abs(sol.x_nm)))]
+    assert 0.02 < poly_drop < 0.3
