@@ -244,3 +244,19 @@ def test_from_shipped_case():
     with pytest.raises(ValueError, match="geometry.kind"):
         stack_data(load_case("cases/demo-cell-cylindrical.toml"))
     assert replace(data, temperature_K=77.0).temperature_K == 77.0
+
+
+def test_gate_voltage_matches_classical_poisson_solve():
+    # Cross-check of the closed-form channel (Sze & Ng 2007 Sec. 4.2, Boltzmann,
+    # complete ionization) against the finite-volume Poisson solution of the same
+    # classical model: the layer fields agree to the mesh error.
+    from solver import solve
+    from solver.case import load_case
+
+    case = load_case("cases/demo-cell.toml")
+    data = stack_data(case)
+    for gate_V in (-3.0, 12.0):
+        sol = solve(case, gate_V, quantum=False, statistics="boltzmann")
+        mine = stack_state(data, gate_V=gate_V)
+        assert_allclose(mine.layer_fields_MV_cm, sol.layer_fields_MV_cm, rtol=1e-3)
+        assert_allclose(mine.surface_potential_V, sol.surface_potential_V, atol=2e-3)
