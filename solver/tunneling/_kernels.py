@@ -14,6 +14,10 @@ out of its matrix and summed as a logarithm; the running product is
 renormalised every few layers, so nothing overflows for T far below 1e-300.
 
 Kernels take SI arrays and floats only.
+
+numba's on-disk cache checks only the file that defines a kernel: after an
+edit to `_airy.py` that keeps the argument types, touch this file (or clear
+`__pycache__`) so the kernels here are recompiled with it.
 """
 from __future__ import annotations
 

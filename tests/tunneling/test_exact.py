@@ -310,3 +310,37 @@ def test_property_random_stacks(layers, left, right, energies):
     x_abs = np.where(T > 0, x_abs, 0.0)          # closed lead: T = 0 exactly on both sides
     allowed = (1e-9 + 1e3 * np.finfo(float).eps * T * x_abs) * T
     assert np.all(np.abs(Tr - T) <= allowed + 1e-300)
+
+
+def test_branch_free_flat_layer_matches_library_functions():
+    # the polynomial exp/sin/cos of the vectorised kernel against libm (math.expm1, math.sin, math.cos)
+    import numba
+
+    from solver.tunneling._kernels import _flat_layer, _flat_layer_poly
+
+    @numba.njit(error_model="numpy")
+    def both(q, mu, d):
+        out = np.empty((2, 5, q.size))
+        for j in range(q.size):
+            a = _flat_layer(q[j], mu, d)
+            b = _flat_layer_poly(q[j], mu, d)
+            for k in range(5):
+                out[0, k, j] = a[k]
+                out[1, k, j] = b[k]
+        return out
+
+    q = np.concatenate([np.linspace(-3000.0, 3000.0, 60001), np.logspace(-20, 4, 500), -np.logspace(-20, 4, 500), [0.0]])
+    lib, poly = both(q, 0.4, 1.7)
+    # diagonal: relative for cosh, absolute for cos; off-diagonal: relative to mu d, q d / mu
+    np.testing.assert_allclose(poly[0], lib[0], rtol=1e-15, atol=1e-15)
+    np.testing.assert_allclose(poly[1], lib[1], rtol=1e-14, atol=1e-15 * 0.4 * 1.7)
+    np.testing.assert_allclose(poly[2], lib[2], rtol=1e-14, atol=1e-15 * np.abs(q).max() * 1.7 / 0.4)
+    np.testing.assert_array_equal(poly[4], lib[4])
+
+
+def test_very_large_phase_layer_uses_library_path():
+    # phase k d ~ 2e5 rad: beyond the polynomial reduction (POLY_PHASE_MAX), still exact;
+    # compared with the complex-matrix twin (its phase error is eps * k d ~ 4e-11)
+    b = Barrier((0.5, 5000.0, 0.5), (2.0, -1.0, 2.0), (2.0, -1.0, 2.0), (0.3, 1.0, 0.3), left=(0.0, 0.5), right=(0.0, 0.5))
+    E = np.linspace(45.0, 50.0, 7)
+    np.testing.assert_allclose(transmission(b, E), naive.transmission(b, E), rtol=1e-8)
