@@ -247,6 +247,12 @@ class Poisson:
         (Blakemore normalisation, solver.statistics) with E_c = E_c0 - q phi;
         the reduced energies of every region and both carriers are evaluated
         in one call, since the cost of the integrals is per call here."""
+        # trial points of the line search may overflow exp (Boltzmann); the
+        # resulting inf/NaN are rejected there
+        with np.errstate(over="ignore", invalid="ignore"):
+            return self._charge(phi, gate_V, quantum)
+
+    def _charge(self, phi, gate_V, quantum):
         s = self.s
         Q = s.fixed_charge.copy()
         dQ = np.zeros(s.size)
