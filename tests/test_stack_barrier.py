@@ -260,3 +260,21 @@ def test_gate_voltage_matches_classical_poisson_solve():
         mine = stack_state(data, gate_V=gate_V)
         assert_allclose(mine.layer_fields_MV_cm, sol.layer_fields_MV_cm, rtol=1e-3)
         assert_allclose(mine.surface_potential_V, sol.surface_potential_V, atol=2e-3)
+
+
+def test_state_from_solution_reproduces_the_closed_form():
+    # A classical Boltzmann solve of the same model gives the same barrier as the
+    # closed-form state (band edges to the mesh error, ~1e-3 eV).
+    from solver import solve
+    from solver.case import load_case
+    from solver.tunneling.stack import state_from_solution
+
+    case = load_case("cases/mos-capacitor.toml")
+    data = stack_data(case)
+    sol = solve(case, 6.0, quantum=False, statistics="boltzmann")
+    a = stack_barrier(data, state_from_solution(data, sol)).barrier
+    b = stack_barrier(data, stack_state(data, gate_V=6.0)).barrier
+    assert_allclose(a.u_start_eV, b.u_start_eV, atol=3e-3)
+    assert_allclose(a.u_end_eV, b.u_end_eV, atol=3e-3)
+    assert_allclose(a.left[0], b.left[0], atol=3e-3)
+    assert_allclose(a.right[0], b.right[0], atol=1e-9)

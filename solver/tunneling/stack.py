@@ -433,6 +433,38 @@ def _state_from_stack(data: StackData, stack_V: float, phi_ms: float, ec_minus_e
     )
 
 
+def state_from_solution(data: StackData, solution) -> StackState:
+    """The StackState of a solved band profile (`solver.solve`), for `stack_barrier`.
+
+    The voltage across the stack is read from the solution's layer band edges
+    (vacuum level = E_c + chi at the gate-side edge of the first layer and the
+    channel-side edge of the last); fields and sheet-charge kinks inside the
+    stack follow from it exactly as in `stack_state`. The channel's surface band
+    edges, band bending and the gate voltage are the solution's, on the scale
+    with the channel Fermi level at 0. The emitter stays a 3-D lead at the
+    surface band edge: the subband-resolved supply of a quantized channel is
+    not part of this Barrier.
+    """
+    if getattr(solution, "geometry", "planar") != "planar":
+        raise ValueError("state_from_solution: planar solutions only")
+    ef = float(solution.fermi_level_eV)
+    ec = solution.layer_conduction_band_eV
+    if len(ec) != data.count:
+        raise ValueError(f"state_from_solution: the solution has {len(ec)} layers, the stack {data.count}")
+    vac_gate = float(ec[0][0]) + data.affinity_eV[0] - ef
+    vac_chan = float(ec[-1][1]) + data.affinity_eV[-1] - ef
+    _, _, _, ec_minus_ef = _bulk_channel(data)
+    phi_ms = data.gate_work_function_eV - (data.channel_affinity_eV + ec_minus_ef)
+    base = _state_from_stack(data, vac_chan - vac_gate, phi_ms, ec_minus_ef)
+    shift = vac_chan - base.vacuum_level_eV[-1]
+    ec_surface = vac_chan - data.channel_affinity_eV
+    return replace(base, gate_V=float(solution.gate_V),
+                   surface_potential_V=float(solution.surface_potential_V),
+                   vacuum_level_eV=tuple(v + shift for v in base.vacuum_level_eV),
+                   channel_conduction_eV=float(ec_surface),
+                   channel_valence_eV=float(ec_surface - data.channel_band_gap_eV))
+
+
 # ------------------------------------------------------------------------ barriers
 
 
