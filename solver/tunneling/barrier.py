@@ -145,6 +145,12 @@ class Barrier:
         """Positions of the n_layers + 1 layer boundaries, nm, starting at 0."""
         return np.concatenate(([0.0], np.cumsum(self.thickness_nm)))
 
+    def __getstate__(self):
+        # pickles (process executors) carry the fields only; the SI cache is rebuilt
+        state = self.__dict__.copy()
+        state.pop("layer_data_si", None)
+        return state
+
     @cached_property
     def layer_data_si(self) -> LayerDataSI:
         """SI arrays for the kernels, built once per Barrier."""

@@ -62,6 +62,16 @@ def test_layer_data_si_cached_and_readonly():
         d.thickness_m[0] = 5.0
 
 
+def test_pickle_round_trip_without_cache():
+    import pickle
+
+    b = _stack()
+    b.layer_data_si
+    b2 = pickle.loads(pickle.dumps(b))
+    assert b2 == b and "layer_data_si" not in b2.__dict__
+    assert not b2.layer_data_si.thickness_m.flags.writeable
+
+
 @pytest.mark.parametrize(
     "changes, pattern",
     [
