@@ -237,3 +237,47 @@ acceptors_cm3 = 1e17
     assert sol.inversion_charge_cm2 < sm.inversion_charge_cm2
     poly_drop = sol.potential_V[0] - sol.potential_V[int(np.argmin(np.abs(sol.x_nm)))]
     assert 0.02 < poly_drop < 0.3
+
+
+STACK = """
+temperature_K = {T}
+[gate]
+material = "W"
+[[layers]]
+name = "blocking"
+material = "Al2O3"
+thickness_nm = 8.0
+[[layers]]
+name = "trap"
+material = "Si3N4"
+thickness_nm = 6.0
+charge_cm2 = -3e12
+[[layers]]
+name = "tunnel"
+material = "SiO2"
+thickness_nm = 4.0
+[channel]
+{channel}
+{geometry}
+"""
+
+
+@pytest.mark.parametrize("channel,geometry,T,statistics", [
+    ("acceptors_cm3 = 1e17", "", 300.0, "boltzmann"),
+    ("donors_cm3 = 1e17", "", 300.0, "fermi-dirac"),
+    ('acceptors_cm3 = 1e17\nionization = "incomplete"', "", 77.0, "fermi-dirac"),
+    ("acceptors_cm3 = 1e17",
+     '[geometry]\nkind = "cylindrical"\nchannel_radius_nm = 20.0\ncore_radius_nm = 12.0', 300.0,
+     "fermi-dirac"),
+])
+def test_program_and_erase_biases_converge(channel, geometry, T, statistics):
+    # program / erase gate voltages of charge-trap cells, +-20 V (physics-data sheet
+    # Sec. 5.2, common practice): the solve converges within 30 iterations
+    case = parse_case(STACK.format(T=T, channel=channel, geometry=geometry))
+    for v in (-20.0, 20.0):
+        sol = solve(case, v, quantum=True, statistics=statistics)
+        assert sol.convergence.converged and sol.iterations <= 30
+        assert sol.charge_residual < 1e-12
+    # at +20 V the tunnel oxide carries a Fowler–Nordheim field (> 10 MV/cm, pointing
+    # from the gate to the channel)
+    assert sol.layer_fields_MV_cm[-1] > 10.0
