@@ -31,6 +31,12 @@ def test_writes_store_and_figures(tmp_path, capsys):
     assert m["ratio_exact_wkb"].dims == ("thickness_nm", "map_field_MV_cm")
     assert np.asarray(m["within_factor_2_fn"].values).shape == (3, 4)
     assert run["groups"]["transmission"]["transmission_exact"].dims == ("spectrum_field_MV_cm", "energy_eV")
+    # readable by xarray with named dimensions (netCDF-4 dimension scales)
+    import xarray
+
+    with xarray.open_dataset(out, engine="h5netcdf", group="map") as ds:
+        assert ds["ratio_exact_fn"].dims == ("thickness_nm", "map_field_MV_cm")
+        assert ds["current_exact_A_cm2"].attrs["units"] == "A/cm^2"
 
 
 def test_output_dir_and_quiet(tmp_path, capsys):
