@@ -344,3 +344,19 @@ def test_very_large_phase_layer_uses_library_path():
     b = Barrier((0.5, 5000.0, 0.5), (2.0, -1.0, 2.0), (2.0, -1.0, 2.0), (0.3, 1.0, 0.3), left=(0.0, 0.5), right=(0.0, 0.5))
     E = np.linspace(45.0, 50.0, 7)
     np.testing.assert_allclose(transmission(b, E), naive.transmission(b, E), rtol=1e-8)
+
+
+def test_many_layers_renormalised_product():
+    # 300 flat layers (T far below 1e-300 at low energy): ln T against the log-scaled complex
+    # twin, exact for flat layers with one slice (tests/tunneling/naive.py)
+    rng = np.random.default_rng(11)
+    n = 300
+    u = np.where(np.arange(n) % 2 == 0, rng.uniform(1.0, 3.0, n), rng.uniform(-0.3, 0.3, n))
+    b = Barrier(rng.uniform(0.3, 1.5, n), u, u, rng.uniform(0.2, 0.6, n), left=(0.0, 0.5), right=(0.0, 0.5))
+    E = np.linspace(0.05, 3.5, 60)
+    T = transmission(b, E)
+    ln_ref = naive.staircase_log_transmission(b, E, 1)
+    ok = ln_ref > np.log(1e-300)
+    assert (~ok).any() and ok.any()
+    np.testing.assert_allclose(np.log(T[ok]), ln_ref[ok], atol=1e-8)
+    assert np.all(T[~ok] < 1e-290)
