@@ -32,7 +32,8 @@ cylindrical geometry, so that "charge" at a node means C/m^2 or C/m/rad):
 
 Spacing: `interface_spacing` at every interface, growing by the factor
 `growth` per cell up to `max_spacing` (within the quantum region at most
-`quantum_spacing`); in the deep semiconductor beyond the quantum region the
+`quantum_spacing`, growing by at most 1.05 per cell there, since inversion
+and accumulation layers vary on a sub-nm scale); in the deep semiconductor beyond the quantum region the
 cap relaxes to a quarter of the bulk Debye length when that is larger, since
 the solution varies there on that scale only.
 
@@ -80,7 +81,8 @@ __all__ = [
 ]
 
 MAX_DEPTH_M = 20e-6
-DIELECTRIC_PENETRATION_M = 2e-9  # quantum box extends this far into the adjacent dielectric
+DIELECTRIC_PENETRATION_M = 2e-9
+QUANTUM_GROWTH = 1.05  # growth cap in the channel's quantum region (inversion/accumulation layers)  # quantum box extends this far into the adjacent dielectric
 
 
 # ------------------------------------------------------------------ inputs (SI)
@@ -300,8 +302,8 @@ def _assemble(geometry, breaks, seg_specs, opts):
     h_end, cap, min_cells) for segment k."""
     xs = [np.array([breaks[0]])]
     for k, (a, b) in enumerate(zip(breaks[:-1], breaks[1:])):
-        h0, h1, cap, nmin = seg_specs[k]
-        pts = graded_points(b - a, h0, h1, opts.growth, cap, nmin)
+        h0, h1, cap, nmin, *g = seg_specs[k]
+        pts = graded_points(b - a, h0, h1, g[0] if g else opts.growth, cap, nmin)
         xs.append(a + pts[1:])
     x = np.concatenate(xs)
     # snap breakpoints exactly
@@ -327,6 +329,7 @@ def build_structure(*, geometry: str, temperature_K: float, layers: tuple[Dielec
     o = options
     h0, hmax = o.interface_spacing_m, o.max_spacing_m
     hq = min(o.quantum_spacing_m, hmax)
+    gq = min(o.growth, QUANTUM_GROWTH)
     T = temperature_K
     n_ch = _doping_m3(channel, T)
     h_bulk = max(hmax, 0.25 * _debye_length_m(channel.relative_permittivity, n_ch, T))
@@ -387,16 +390,16 @@ def build_structure(*, geometry: str, temperature_K: float, layers: tuple[Dielec
         else:  # channel
             if geometry == "planar":
                 q_end = a + qdepth
-                segs = [(a, q_end, (h0, hq, hq, 8))]
+                segs = [(a, q_end, (h0, hq, hq, 8, gq))]
                 if b - q_end > 1e-15:
                     segs.append((q_end, b, (hq, None, h_bulk, 2)))
             else:
                 q_start = b - qdepth
                 inner_h = h0 if a > 0 else None
                 if q_start - a > 1e-15:
-                    segs = [(a, q_start, (inner_h, hq, hmax, 2)), (q_start, b, (hq, h0, hq, 8))]
+                    segs = [(a, q_start, (inner_h, hq, hmax, 2)), (q_start, b, (hq, h0, hq, 8, gq))]
                 else:
-                    segs = [(a, b, (inner_h, h0, hq, 8))]
+                    segs = [(a, b, (inner_h, h0, hq, 8, gq))]
         for c0, c1, sp in segs:
             breaks.append(c1)
             specs.append(sp)

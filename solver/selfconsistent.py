@@ -51,8 +51,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+import numba
 import numpy as np
-from scipy.special import expit
 
 from solver import statistics as stat
 from solver.electrostatics import Poisson, QuantumCharge
@@ -143,6 +143,35 @@ class Solution:
 
 
 # --------------------------------------------------------------------------- quantum channel
+@numba.njit(cache=True)
+def _sheet_sum(psi2, a, dos, shift, sign):
+    """sum_j psi2[i, j] dos[j] ln(1 + exp(a_j + sign shift_i)) and the sum with
+    the derivative exp/(1 + exp) in place of the logarithm, per node i (the
+    Trellakis density of one carrier type, in units of kT and 1)."""
+    n, k = psi2.shape
+    out = np.zeros(n)
+    dout = np.zeros(n)
+    for i in range(n):
+        s = 0.0
+        ds = 0.0
+        for j in range(k):
+            x = a[j] + sign * shift[i]
+            if x > 0.0:
+                e = math.exp(-x)
+                lg = x + math.log1p(e)
+                f = 1.0 / (1.0 + e)
+            else:
+                e = math.exp(x)
+                lg = math.log1p(e)
+                f = e / (1.0 + e)
+            w = psi2[i, j] * dos[j]
+            s += w * lg
+            ds += w * f
+        out[i] = s
+        dout[i] = ds
+    return out, dout
+
+
 class _Valleys:
     """Prepared Schrödinger operators of one carrier type in the box."""
 
@@ -320,15 +349,15 @@ class _QuantumChannel:
             def density(phi_box):
                 return rho0, zero
         else:
+            ae1, ah1 = np.ascontiguousarray(ae[0]), np.ascontiguousarray(ah[0])
+            psi_e, psi_h = np.ascontiguousarray(psi_e), np.ascontiguousarray(psi_h)
+            dos_e, dos_h = np.ascontiguousarray(dos_e), np.ascontiguousarray(dos_h)
+
             def density(phi_box):
-                shift = (phi_box - ref)[:, None] * qkT
-                xe = ae + shift
-                xh = ah - shift
-                n = (psi_e * (dos_e * kT) * np.logaddexp(0.0, xe)).sum(axis=1)
-                dn = (psi_e * dos_e * expit(xe)).sum(axis=1) * Q_C
-                p = (psi_h * (dos_h * kT) * np.logaddexp(0.0, xh)).sum(axis=1)
-                dp = -(psi_h * dos_h * expit(xh)).sum(axis=1) * Q_C
-                return Q_C * (p - n), Q_C * (dp - dn)
+                shift = (phi_box - ref) * qkT
+                n, dn = _sheet_sum(psi_e, ae1, dos_e, shift, 1.0)
+                p, dp = _sheet_sum(psi_h, ah1, dos_h, shift, -1.0)
+                return Q_C * kT * (p - n), Q_C * Q_C * (-dp - dn)
         wn, wp = self.classical_weights(active)
         return QuantumCharge(self.nodes, self.weight, wn, wp, density)
 
@@ -462,6 +491,7 @@ def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=No
     for it in range(1, max_iterations + 1):
         active = qc.active_carriers(phi, gate_V, active)
         states = qc.states(phi, active)
+        phi_states = phi
         if scheme == "predictor-corrector":
             model = qc.charge_model(states, phi)
             new, rec = P.solve(gate_V, phi, model, tolerance_V=inner_tol, raise_on_failure=False)
@@ -498,12 +528,14 @@ def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=No
         raise ConvergenceError(
             f"Schrödinger–Poisson at gate_V = {gate_V:g} V did not converge: residual history "
             f"{', '.join(f'{h:.2e}' for h in history[-5:])} V", record)
-    states = qc.states(phi, active)
-    return _solution(prep, gate_V, phi, states, record, it, newton_total, True)
+    # the last states (of a potential within tolerance_V of the result) are the
+    # reported ones; the charge residual is that of the last Poisson solve
+    return _solution(prep, gate_V, phi, states, record, it, newton_total, True, phi_states)
 
 
 # --------------------------------------------------------------------------- outputs
-def _solution(prep, gate_V, phi, states, record, iterations, newton_total, quantum) -> Solution:
+def _solution(prep, gate_V, phi, states, record, iterations, newton_total, quantum,
+              phi_states=None) -> Solution:
     s, P = prep.structure, prep.poisson
     n_nodes = s.size
     kT = P.kT
@@ -539,10 +571,9 @@ def _solution(prep, gate_V, phi, states, record, iterations, newton_total, quant
             sc_charge += Q_C * float(np.sum(d["vol"] * (d["nd"] - d["na"])))
     # neutral majority density of the channel
     spec = ch.spec
-    from solver.statistics import electron_density, hole_density
     ec0 = -spec.affinity_eV * EV_TO_J
-    n_bulk = float(electron_density(ec0, P.channel_fermi_J, spec.conduction_dos_m3, P.T, P.statistics)[0])
-    p_bulk = float(hole_density(ec0 - spec.gap_eV * EV_TO_J, P.channel_fermi_J, spec.valence_dos_m3,
+    n_bulk = float(stat.electron_density(ec0, P.channel_fermi_J, spec.conduction_dos_m3, P.T, P.statistics)[0])
+    p_bulk = float(stat.hole_density(ec0 - spec.gap_eV * EV_TO_J, P.channel_fermi_J, spec.valence_dos_m3,
                                 P.T, P.statistics)[0])
     subbands, wavefunctions, valleys_out = [], [], []
     if qc is not None:
@@ -587,7 +618,7 @@ def _solution(prep, gate_V, phi, states, record, iterations, newton_total, quant
 
     # interface traps, gate charge, residual
     q_it, _ = P.interface_trap_charge(phi[s.interface_node], gate_V)
-    model = qc.charge_model(states, phi) if qc is not None else None
+    model = qc.charge_model(states, phi if phi_states is None else phi_states) if qc is not None else None
     Q, _ = P.charge(phi, gate_V, model)
     G, _ = P.gradient(phi, gate_V, model)
     free = P._free
