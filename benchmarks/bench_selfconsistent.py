@@ -84,6 +84,9 @@ def main() -> int:
     print(f"   cold start at every point: {t_cold:.2f} s   ratio {t_cold / t_cv:.2f}x; "
           f"gate charge agrees to {np.abs(np.array(q_cold) - cv.gate_charge_C_cm2).max():.1e} C/cm^2")
     print(f"   classical C-V for reference: {t_cl:.2f} s")
+    t_fine, cv_fine = best_of(lambda: capacitance_voltage(fine, v, quantum=True), repeat=1)
+    print(f"   the same 101-point quantum C-V on the {fine.size}-node mesh: {t_fine:.2f} s "
+          f"(max {cv_fine.iterations.max()} iterations)")
 
     # ------------------------------------------------------------ 3. iteration counts
     biases = (-3.0, -1.0, 0.0, 0.5, 1.5, 5.0)

@@ -92,7 +92,45 @@ def _readonly(a):
 
 @dataclass(frozen=True)
 class Solution:
-    """Self-consistent electrostatics of a cell at one gate voltage (arrays read-only)."""
+    """Self-consistent electrostatics of a cell at one gate voltage (arrays read-only).
+
+    Contract attributes (shared/api-contract.md) first, then:
+
+    gate_V, quantum, statistics, geometry, temperature_K   the solve's inputs
+    layer_names, layer_materials      dielectric layers, gate first
+    interfaces_nm                     gate/dielectric, dielectric/dielectric and
+                                      dielectric/channel interfaces, in x_nm order
+    layer_voltages_V                  phi(gate side) - phi(channel side) per layer, gate first
+    layer_conduction_band_eV, layer_valence_band_eV
+                                      (gate-side edge, channel-side edge) of every layer's
+                                      bands, gate first (a sheet charge inside a layer
+                                      puts a kink between them, see x_nm/potential_V)
+    gate_fermi_level_eV, flatband_V   E_F - q V_g; Phi_gate - Phi_channel
+    inversion_charge_cm2              minority carriers per area (> 0), channel and
+                                      penetration into the dielectric
+    majority_excess_cm2               majority carriers per area minus the neutral bulk
+                                      value (> 0 accumulation, < 0 depletion)
+    electron_sheet_cm2, hole_sheet_cm2  all electrons / holes of the channel per area
+    gate_charge_C_cm2                 -(all charge outside the gate) per area
+    interface_trap_charge_C_cm2       charge of the interface traps
+    charge_centroid_nm                mean distance of the minority carriers from the
+                                      dielectric/channel interface (negative inside the dielectric)
+    wavefunctions                     |psi|^2 of every listed subband, shape
+                                      (len(x_nm), len(subbands)), zero outside the
+                                      quantum box, trapezoid integral over x_nm = 1
+    subband_valleys                   valley label per subband (column order)
+    convergence                       ConvergenceRecord of the self-consistent loop
+                                      (residual history: max |phi_{k+1} - phi_k| in V)
+    charge_residual                   max over boxes of |electric flux out - charge in|
+                                      per reference area (C/cm^2) of the final potential
+    newton_iterations                 Poisson Newton steps in total
+    minority_carrier                  "electrons" (p-type channel) or "holes"
+
+    Per-area quantities of cylindrical cells are per area of the channel
+    surface (radius channel_radius_nm). `subbands` lists the lowest
+    SUBBANDS_REPORTED subbands of every quantized valley set; carriers that hold
+    less than 1e3 per cm^2 in the quantum box stay classical and have none.
+    """
 
     x_nm: np.ndarray
     potential_V: np.ndarray
