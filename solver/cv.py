@@ -52,8 +52,8 @@ class CVResult:
 def capacitance_voltage(case, gate_V, quantum=True, statistics="fermi-dirac",
                         keep_solutions=False) -> CVResult:
     """Quasi-static C–V of `case` (a Case, or a mesh.Structure) over the gate
-    voltages `gate_V` (V, at least two, strictly monotonic). Raises ConvergenceError naming the first bias
-    that does not converge."""
+    voltages `gate_V` (V, at least two, strictly monotonic). Raises
+    ConvergenceError naming the first bias that does not converge."""
     v = np.asarray(gate_V, dtype=float).ravel()
     if v.size < 2:
         raise ValueError(f"gate_V needs at least 2 voltages, got {v.size}")

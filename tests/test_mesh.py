@@ -113,3 +113,16 @@ channel_radius_nm = 25.0
     labels = [v.label for v in s.channel.spec.electron_valleys]
     assert labels == ["2-fold", "4-fold"]
     assert_allclose([v.quantization_mass for v in s.channel.spec.electron_valleys], [0.916, 0.19])
+
+
+@pytest.mark.parametrize("geometry", ["planar", "cylindrical"])
+def test_sheet_charge_position_counts_from_the_gate_side(geometry):
+    # DEVELOPERS.md: charge_position 0 = gate side .. 1 = channel side, in both geometries
+    trap = DielectricSpec("trap", "Si3N4", 6e-9, 7.5, 2.0, 5.1, 0.5, 0.5, -1e-3, 0.25)
+    kw = dict(channel_radius_m=20e-9) if geometry == "cylindrical" else {}
+    s = build_structure(geometry=geometry, temperature_K=300.0, layers=(ox(6, "block"), trap, ox(5, "tun")),
+                        channel=si(), metal_work_function_eV=4.6, **kw)
+    j = int(np.nonzero(s.fixed_charge)[0][0])
+    R = s.regions[s.layer_regions[1]]
+    gate_edge = s.x_m[R.lo] if geometry == "planar" else s.x_m[R.hi]
+    assert abs(s.x_m[j] - gate_edge) == pytest.approx(1.5e-9, abs=1e-15)
