@@ -649,8 +649,10 @@ def _solution(prep, gate_V, phi, states, record, iterations, newton_total, quant
     # centroid of the minority carriers from the dielectric/channel interface
     dist = s.channel_side_sign * (s.x_m - s.x_m[s.interface_node])
     carriers = n if minority == "electrons" else p
-    wts = carriers * np.where(np.isin(np.arange(n_nodes), ch_nodes), 1.0, 0.0) * vol_full
-    if qc is not None:
+    # classical carriers fill the semiconductor part of a box, quantized ones the whole box
+    wts = np.zeros(n_nodes)
+    wts[ch_nodes] = carriers[ch_nodes] * ch.volume
+    if qc is not None and states[2][0 if minority == "electrons" else 1]:
         wts[qc.nodes] = carriers[qc.nodes] * vol_full[qc.nodes]
     centroid = float(np.sum(wts * dist) / np.sum(wts)) * M_TO_NM if np.sum(wts) > 0 else float("nan")
 
