@@ -281,3 +281,42 @@ def test_program_and_erase_biases_converge(channel, geometry, T, statistics):
     # at +20 V the tunnel oxide carries a Fowler–Nordheim field (> 10 MV/cm, pointing
     # from the gate to the channel)
     assert sol.layer_fields_MV_cm[-1] > 10.0
+
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+
+@settings(max_examples=12, deadline=None)
+@given(t_block=st.floats(3.0, 12.0), t_trap=st.floats(2.0, 8.0), t_tunnel=st.floats(1.5, 6.0),
+       log_doping=st.floats(15.0, 18.7), n_type=st.booleans(), gate_V=st.floats(-12.0, 12.0),
+       trapped=st.floats(-5e12, 5e12))
+def test_random_stacks_converge_and_obey_gauss(t_block, t_trap, t_tunnel, log_doping, n_type, gate_V,
+                                               trapped):
+    # Gauss's law for the whole cell (Jackson, Classical Electrodynamics, Sec. 1.6): the gate
+    # charge balances the semiconductor and trapped charges (up to the tiny flux through the
+    # neutral back contact and the 1e-8 V self-consistency tolerance)
+    doping = f"{'donors' if n_type else 'acceptors'}_cm3 = {10 ** log_doping:.6e}"
+    case = parse_case(f"""
+[gate]
+material = "TiN"
+[[layers]]
+name = "blocking"
+material = "Al2O3"
+thickness_nm = {t_block}
+[[layers]]
+name = "trap"
+material = "Si3N4"
+thickness_nm = {t_trap}
+charge_cm2 = {trapped}
+[[layers]]
+name = "tunnel"
+material = "SiO2"
+thickness_nm = {t_tunnel}
+[channel]
+{doping}
+""")
+    sol = solve(case, gate_V, quantum=True)
+    assert sol.convergence.converged and sol.iterations <= 30
+    total = sol.gate_charge_C_cm2 + sol.semiconductor_charge_C_cm2 + Q_C * trapped
+    assert abs(total) <= 1e-6 * max(abs(sol.gate_charge_C_cm2), Q_C * 1e10)
