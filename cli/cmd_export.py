@@ -23,6 +23,9 @@ def add_arguments(parser):
     parser.add_argument("file", metavar="FILE", help="HDF5 file written by tunnelstack")
     parser.add_argument("--csv", nargs="?", const="", default=None, metavar="OUT",
                         help="write CSV to OUT (default: FILE with suffix .csv; '-' = standard output)")
+    parser.add_argument("--profiles", action="store_true",
+                        help="study: also write the per-point arrays, one long table per array axis "
+                             "(OUT-<axis>.csv: axis values, index along the array axis, arrays)")
 
 
 def _num(v) -> str:
@@ -52,6 +55,36 @@ def study_rows(d):
         vals = [_num(np.asarray(d.outputs[n].values)[pos]) for n in scalars]
         rows.append(axes + [status] + vals + [_num(d.elapsed_s[pos]), d.error_type[pos], d.error_message[pos]])
     return comments, header, rows
+
+
+def profile_tables(d):
+    """{array axis: (comments, header, rows)}: the per-point arrays of a study in
+    long form, one row per finished point and index along the array axis."""
+    by_dim: dict[str, list[str]] = {}
+    for name, data in list(d.outputs.items()) + list(d.profiles.items()):
+        extra = data.dims[len(d.shape):]
+        if len(extra) == 1:
+            by_dim.setdefault(extra[0], []).append(name)
+    out = {}
+    for dim, names in by_dim.items():
+        arrays = {n: np.asarray((d.outputs.get(n) or d.profiles[n]).values) for n in names}
+        units = {n: (d.outputs.get(n) or d.profiles[n]).units for n in names}
+        lengths = d.lengths.get(dim)
+        header = [a.key for a in d.axes] + [dim] + names
+        rows = []
+        for pos in np.argwhere(d.completed & ~d.failed):
+            pos = tuple(int(i) for i in pos)
+            if d.mode == "zip":
+                axes = [_num(a.values[pos[0]]) for a in d.axes]
+            else:
+                axes = [_num(a.values[i]) for a, i in zip(d.axes, pos)]
+            n = int(lengths[pos]) if lengths is not None else arrays[names[0]].shape[-1]
+            for k in range(n):
+                rows.append(axes + [str(k)] + [_num(arrays[name][pos + (k,)]) for name in names])
+        comments = [f"tunnelstack study {d.path}: arrays over {dim!r}, finished points only",
+                    "units: " + ", ".join(f"{n} [{units[n]}]" for n in names)]
+        out[dim] = (comments, header, rows)
+    return out
 
 
 def _write(target, comments, header, rows) -> None:
@@ -105,10 +138,17 @@ def run(args) -> int:
         raise StoreError(f"{path}: no such file")
     out = args.csv or str(path.with_suffix(".csv"))
     if kind == "study":
-        comments, header, rows = study_rows(read_study(path))
+        d = read_study(path)
+        comments, header, rows = study_rows(d)
         _write(out, comments, header, rows)
         if out != "-":
             print(f"wrote {out} ({len(rows)} points)")
+        if args.profiles:
+            base = Path(out if out != "-" else path.with_suffix(".csv"))
+            for dim, (comments, header, rows) in profile_tables(d).items():
+                target = base.with_name(f"{base.stem}-{dim}.csv")
+                _write(target, comments, header, rows)
+                print(f"wrote {target} ({len(rows)} rows)", file=sys.stderr if out == "-" else sys.stdout)
         return 0
     tables = _run_tables(read_run(path), path)
     if out == "-":

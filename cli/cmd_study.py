@@ -24,7 +24,7 @@ def add_arguments(parser):
     where.add_argument("--workers", type=int, default=0, metavar="N",
                        help="local worker processes (default 0 = all cores; 1 = serial, in this process)")
     where.add_argument("--scheduler", metavar="ADDRESS",
-                       help="run on a Dask distributed scheduler, e.g. tcp://10.1.2.3:8786 "
+                       help="run on a Dask distributed scheduler, e.g. tcp://scheduler-host:8786 "
                             "(needs the optional 'cluster' extra)")
     where.add_argument("--local-cluster", type=int, metavar="N",
                        help="run on a Dask cluster of N worker processes on this machine (127.0.0.1)")

@@ -637,6 +637,12 @@ def test_show_plot_export_of_study_with_failures(tmp_path, capsys):
     assert rows[3].split(",")[2] == "failed" and rows[3].endswith("ValueError,gate_V = 6 is beyond this test's range")
     assert rows[1].split(",")[2] == "done" and float(rows[1].split(",")[4]) == pytest.approx(1 / 3)
 
+    assert main(["export", str(path), "--csv", str(tmp_path / "s.csv"), "--profiles"]) == 0
+    long = [ln for ln in (tmp_path / "s-node.csv").read_text().splitlines() if not ln.startswith("#")]
+    assert long[0] == f"{THICK},{GATE},node,u_eV,x_nm"
+    assert len(long) == 1 + 2 * (13 + 17 + 21 + 25)  # finished points x their profile lengths
+    assert long[1] == "3.0,1.0,0,-0.0,0.0" and long[13].startswith("3.0,1.0,12,") and long[13].endswith(",3.0")
+
     figs = tmp_path / "figs"
     assert main(["plot", str(path), "--output-dir", str(figs), "--over", THICK]) == 0
     assert main(["plot", str(path), "--output-dir", str(figs), "--quantity", "u_eV"]) == 0
