@@ -19,7 +19,7 @@ import numpy as np
 
 from solver.errors import ConvergenceError
 from solver.selfconsistent import prepare, solve_structure
-from solver.units import EPSILON0_F_M, F_PER_M2_TO_F_PER_CM2, NM_TO_M, SIO2_PERMITTIVITY_FOR_EOT
+from solver.units import EPSILON0_F_M, F_PER_M2_TO_F_PER_CM2, SIO2_PERMITTIVITY_FOR_EOT
 
 __all__ = ["CVResult", "capacitance_voltage"]
 

@@ -60,7 +60,6 @@ from solver.errors import ConvergenceError, ConvergenceRecord
 from solver.mesh import Structure, structure_from_case
 from solver.schrodinger import Hamiltonian
 from solver.units import (
-    BOLTZMANN_J_K,
     C_PER_M2_TO_C_PER_CM2,
     EV_TO_J,
     M_TO_NM,

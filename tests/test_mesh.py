@@ -10,7 +10,6 @@ from numpy.testing import assert_allclose
 from solver.case import parse_case
 from solver.mesh import (
     DielectricSpec,
-    MeshOptions,
     SemiconductorSpec,
     automatic_depth_m,
     build_structure,

@@ -4,6 +4,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.optimize import brentq
 from scipy.special import ai_zeros
 
@@ -281,10 +283,6 @@ def test_program_and_erase_biases_converge(channel, geometry, T, statistics):
     # at +20 V the tunnel oxide carries a Fowler–Nordheim field (> 10 MV/cm, pointing
     # from the gate to the channel)
     assert sol.layer_fields_MV_cm[-1] > 10.0
-
-
-from hypothesis import given, settings  # noqa: E402
-from hypothesis import strategies as st  # noqa: E402
 
 
 @settings(max_examples=12, deadline=None)
