@@ -510,9 +510,10 @@ def build_structure(*, geometry: str, temperature_K: float, layers: tuple[Dielec
         x_lo, x_hi = x[iface] - qdepth, x[iface] + pen
     q_nodes = np.nonzero((x >= x_lo - 1e-15) & (x <= x_hi + 1e-15))[0]
     # blend: the quantum density is used fully near the interface and handed
-    # over smoothly to the classical one over the far 40 % of the box in the
-    # semiconductor (a Dirichlet box end would otherwise leave an artificial
-    # dip of the carriers that are plentiful there)
+    # over smoothly (cos^2) to the classical one between 50 % and 80 % of the
+    # box depth in the semiconductor, classical alone beyond (the Dirichlet box
+    # end would otherwise carve an artificial dip into carriers that are
+    # plentiful there, i.e. majority carriers)
     depth_in = sign * (x[q_nodes] - x[iface])
     semi_box_end = qdepth
     reaches_axis = geometry == "cylindrical" and x_lo <= 1e-15 and core_radius_m == 0
@@ -525,7 +526,7 @@ def build_structure(*, geometry: str, temperature_K: float, layers: tuple[Dielec
                                  & (x <= x_hi + 1e-15))[0]
             blend = np.ones(q_nodes.size)
     else:
-        t = np.clip((depth_in - 0.6 * semi_box_end) / (0.4 * semi_box_end), 0.0, 1.0)
+        t = np.clip((depth_in - 0.5 * semi_box_end) / (0.3 * semi_box_end), 0.0, 1.0)
         blend = 0.5 * (1.0 + np.cos(np.pi * t))
 
     interfaces = []

@@ -15,10 +15,13 @@ sheet density
     N_j = g m_d m0 kT / (pi hbar^2) ln(1 + exp((E_F - E_j)/kT))
 
 (Ando, Fowler, Stern, Rev. Mod. Phys. 54, 437 (1982), Sec. III). Beyond the
-box the carriers are classical; over the far 40 % of the box the quantum
-density is handed over smoothly to the classical one (weights cos^2), which
-keeps the Dirichlet box end from carving an artificial dip into carriers that
-are plentiful there (majority carriers). Dopants are never quantized.
+box the carriers are classical; between 50 % and 80 % of the box depth the
+quantum density is handed over smoothly to the classical one (weights cos^2),
+classical alone over the last 20 %, which keeps the Dirichlet box end from
+carving an artificial dip into carriers that are plentiful there (majority
+carriers). The 2-D densities of states are normalised so that a wide flat
+box gives back the classical N_c, N_v (bulk limit). Dopants are never
+quantized; carriers holding less than 1e3 per cm^2 in the box stay classical.
 
 Self-consistency uses the predictor–corrector iteration of A. Trellakis,
 A. T. Galick, A. Pacelli, U. Ravaioli, J. Appl. Phys. 81, 7880 (1997): with the
