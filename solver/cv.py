@@ -30,7 +30,7 @@ def _readonly(a, dtype=float):
     return a
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class CVResult:
     """A quasi-static C–V sweep (arrays read-only, one entry per gate voltage)."""
 

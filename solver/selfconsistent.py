@@ -92,7 +92,7 @@ def _readonly(a):
     return a
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Solution:
     """Self-consistent electrostatics of a cell at one gate voltage (arrays read-only).
 
