@@ -6,8 +6,12 @@ gate charge per area is Q_g = -(all charge outside the gate), so that
 
     C(V_g) = dQ_g/dV_g = -d(Q_semiconductor + Q_interface traps)/dV_g
 
-(fixed charges do not move), evaluated by second-order finite differences on
-the sweep (numpy.gradient, non-uniform spacing allowed). This is the
+(fixed charges do not move), evaluated by finite differences on the sweep
+(numpy.gradient: second-order central differences inside, which on any spacing
+are positive-weight averages of the two neighbouring secants, and the secant at
+the two ends). Every value is therefore an average of the true C over an
+interval and can never exceed the stack capacitance, however coarse the sweep
+(a second-order one-sided end formula can). This is the
 low-frequency (quasi-static) capacitance: minority carriers and interface
 traps follow the gate.
 """
@@ -85,7 +89,7 @@ def capacitance_voltage(case, gate_V, quantum=True, statistics="fermi-dirac",
         if keep_solutions:
             sols.append(sol)
     qg = np.array(qg)
-    cap = np.gradient(qg, v, edge_order=2)
+    cap = np.gradient(qg, v, edge_order=1)
     s = prep.structure
     if s.geometry == "planar":
         eot = sum((s.x_m[s.regions[k].hi] - s.x_m[s.regions[k].lo]) * SIO2_PERMITTIVITY_FOR_EOT

@@ -81,3 +81,18 @@ def test_cv_rejects_bad_sweeps(case):
         capacitance_voltage(case, [1.0], quantum=False)
     with pytest.raises(ValueError, match="gate_V"):
         capacitance_voltage(case, [0.0, 1.0, 0.5], quantum=False)
+
+
+def test_coarse_sweep_never_exceeds_stack_capacitance():
+    # quasi-static C = dQ/dV is bounded by the stack capacitance (series-capacitor argument,
+    # Sze & Ng 2007, Sec. 4.3); a finite-difference estimate must respect that on any sweep
+    from pathlib import Path
+
+    import numpy as np
+
+    from solver.case import load_case
+    from solver.cv import capacitance_voltage
+
+    case = load_case(Path(__file__).resolve().parent.parent / "cases" / "mos-capacitor.toml")
+    res = capacitance_voltage(case, np.linspace(-1.5, 2.0, 8), quantum=True)
+    assert np.all(res.capacitance_F_cm2 <= res.oxide_capacitance_F_cm2 * (1 + 1e-9))
