@@ -27,7 +27,11 @@ kink of the integrand (band edges of the layers and leads, Fermi levels),
 geometrically spaced within +-32 kT of each Fermi level and around every
 sharp resonance (below), no wider than 0.1 eV, and are bisected where
 |K15 - G7| is largest until the summed |K15 - G7| (a pessimistic error
-estimate) is below rtol (1e-4) of |J|.
+estimate) is below rtol (1e-4) of |J|. Where the bisection cannot get there
+(the error left sits in panels at the resolution limit of the energy axis, or
+the panel budget is spent) the integral is still accepted if the error is
+below rtol |J| + atol, the absolute floor atol_A_cm2 defaulting to 1e-30 A/cm^2
+(one electron per cm^2 in ~5000 years; the record says which criterion held).
 An integration that does not get there raises ConvergenceError.
 
 Sharp resonances (quasi-bound states of a well inside the stack, e.g. the
@@ -71,6 +75,7 @@ __all__ = [
     "supply_function_eV",
     "find_resonances",
     "TSU_ESAKI_PREFACTOR_A_CM2_EV2",
+    "ATOL_A_CM2",
 ]
 
 # q m0 / (2 pi^2 hbar^3) * (1 eV)^2 in A/cm^2 per eV^2: J = this * m_s * integral of T S dE[eV^2]
@@ -109,6 +114,14 @@ _FERMI_STEPS = 2.0 ** np.arange(0, 6)  # panel edges at E_F +- kT * (1, 2, ..., 
 _MAX_PANELS = 20000
 _MAX_ROUNDS = 60
 _MIN_PANEL_REL = 1e-13
+# Default absolute tolerance of the current, A/cm^2. 1e-30 A/cm^2 is 6e-12 electrons
+# per cm^2 and second, one electron per cm^2 in ~1.6e11 s (~5000 years): ten years
+# of it move ~2e-3 electrons per cm^2, nothing any measurement or retention budget
+# sees. Below it the relative error of a current is not worth resolving, and
+# quasi-bound states narrower than the energy axis resolves (see above) can
+# leave it stuck at ~1e-2 for such currents (e.g. ~1e-50 A/cm^2 of holes from the
+# gate at 1 MV/cm through an oxide/nitride/oxide stack).
+ATOL_A_CM2 = 1e-30
 
 
 def supply_function_eV(energy_eV, fermi_left_eV, fermi_right_eV, temperature_K):
@@ -143,7 +156,7 @@ def _transmission_model(model) -> Callable:
     raise ValueError(f"model must be 'exact', 'wkb' or a callable T(barrier, energy_eV), got {model!r}")
 
 
-def _check_inputs(fermi_left_eV, fermi_right_eV, temperature_K, rtol, supply_mass):
+def _check_inputs(fermi_left_eV, fermi_right_eV, temperature_K, rtol, supply_mass, atol_A_cm2=0.0):
     for name, value in (("fermi_left_eV", fermi_left_eV), ("fermi_right_eV", fermi_right_eV)):
         if not np.isfinite(value):
             raise ValueError(f"{name} must be finite, got {value!r}")
@@ -151,6 +164,8 @@ def _check_inputs(fermi_left_eV, fermi_right_eV, temperature_K, rtol, supply_mas
         raise ValueError(f"temperature_K must be finite and >= 0, got {temperature_K!r}")
     if not (np.isfinite(rtol) and 1e-12 <= rtol <= 0.1):
         raise ValueError(f"rtol must be in [1e-12, 0.1], got {rtol!r}")
+    if not (np.isfinite(atol_A_cm2) and atol_A_cm2 >= 0):
+        raise ValueError(f"atol_A_cm2 must be finite and >= 0, got {atol_A_cm2!r}")
     if supply_mass is not None and not (np.isfinite(supply_mass) and supply_mass > 0):
         raise ValueError(f"supply_mass must be finite and > 0 (units of m0), got {supply_mass!r}")
 
@@ -329,13 +344,15 @@ def _resonance_edges(centers, widths, lower, upper):
 
 
 def tsu_esaki(barrier, fermi_left_eV, fermi_right_eV, temperature_K, *, model="exact", rtol=1e-4,
-              supply_mass=None, resonances=True) -> TsuEsakiResult:
+              supply_mass=None, resonances=True, atol_A_cm2=ATOL_A_CM2) -> TsuEsakiResult:
     """Tsu–Esaki current density with its integration record (see `current_density`)."""
-    _check_inputs(fermi_left_eV, fermi_right_eV, temperature_K, rtol, supply_mass)
+    _check_inputs(fermi_left_eV, fermi_right_eV, temperature_K, rtol, supply_mass, atol_A_cm2)
     fermi_left_eV, fermi_right_eV = float(fermi_left_eV), float(fermi_right_eV)
     t_model = _transmission_model(model)
     m_s = barrier.left[1] if supply_mass is None else float(supply_mass)
     scale = TSU_ESAKI_PREFACTOR_A_CM2_EV2 * m_s
+    # the absolute tolerance in the units of the sums (eV^2)
+    atol = float(atol_A_cm2) / scale
     kT = BOLTZMANN_EV_K * temperature_K
     lower, upper = _energy_limits(barrier, fermi_left_eV, fermi_right_eV, kT)
     if fermi_left_eV == fermi_right_eV or not upper > lower:
@@ -382,21 +399,36 @@ def tsu_esaki(barrier, fermi_left_eV, fermi_right_eV, temperature_K, *, model="e
         total, err_sum = math.fsum(k), math.fsum(err)
         rel = err_sum / abs(total) if total != 0.0 else (0.0 if err_sum == 0.0 else math.inf)
         history.append(rel)
-        if rel <= rtol:
-            extra_info = {"panels": int(a.size), "evaluations": int(evaluations), "resonances": n_resonances}
-            record = ConvergenceRecord(True, rounds, tuple(history), "converged", "relative", extra_info)
-            return TsuEsakiResult(scale * total, scale * err_sum, (lower, upper), int(a.size), int(evaluations),
-                                  n_resonances, record)
-        if rounds == _MAX_ROUNDS or a.size > _MAX_PANELS:
-            break
-        # bisect the panels that carry more than their share of the allowed error
-        share = 0.5 * rtol * abs(total) / a.size if total != 0.0 else 0.0
+        target = rtol * abs(total)
         # panels narrower than _MIN_PANEL_REL |E| only resolve the round-off of T(E)
         splittable = (b - a) > _MIN_PANEL_REL * np.maximum(np.abs(a), 1.0)
+        last = rounds == _MAX_ROUNDS or a.size > _MAX_PANELS
+        # The bisection always works toward rtol |J|. The absolute floor only accepts
+        # what it cannot improve: the error left in panels that can still be split
+        # is within rtol |J| (the rest sits in panels at the resolution limit of the
+        # energy axis, e.g. on a quasi-bound state narrower than ~1e-13 |E|), or the
+        # round/panel budget is spent. So a small current keeps the relative accuracy
+        # wherever it can be had, and the floor never hides a resolvable error.
+        if err_sum <= target:
+            criterion = "relative"
+        elif err_sum <= target + atol and (last or math.fsum(err[splittable]) <= target):
+            criterion = "absolute"
+        else:
+            criterion = None
+        if criterion is not None:
+            extra_info = {"panels": int(a.size), "evaluations": int(evaluations), "resonances": n_resonances,
+                          "criterion": criterion, "atol_A_cm2": float(atol_A_cm2)}
+            message = "converged" if criterion == "relative" else (
+                f"converged to the absolute tolerance {atol_A_cm2:g} A/cm^2 (relative error estimate {rel:.3g})")
+            record = ConvergenceRecord(True, rounds, tuple(history), message, "relative", extra_info)
+            return TsuEsakiResult(scale * total, scale * err_sum, (lower, upper), int(a.size), int(evaluations),
+                                  n_resonances, record)
+        if last or not splittable.any():
+            break
+        # bisect the panels that carry more than their share of the allowed error
+        share = 0.5 * target / a.size
         split = (err > share) & splittable
         if not split.any():
-            if not splittable.any():
-                break
             split[np.argmax(np.where(splittable, err, -1.0))] = True
         ms = 0.5 * (a[split] + b[split])
         na = np.concatenate((a[split], ms))
@@ -409,16 +441,20 @@ def tsu_esaki(barrier, fermi_left_eV, fermi_right_eV, temperature_K, *, model="e
         k = np.concatenate((k[keep], nk))
         g = np.concatenate((g[keep], ng))
     record = ConvergenceRecord(False, len(history) - 1, tuple(history),
-                               f"energy integral not converged to rtol {rtol:g} with {a.size} panels", "relative",
-                               {"panels": int(a.size), "evaluations": int(evaluations)})
+                               f"energy integral not converged to rtol {rtol:g} + atol {atol_A_cm2:g} A/cm^2 "
+                               f"with {a.size} panels", "relative",
+                               {"panels": int(a.size), "evaluations": int(evaluations),
+                                "current_A_cm2": scale * total, "error_estimate_A_cm2": scale * err_sum,
+                                "atol_A_cm2": float(atol_A_cm2)})
     worst = int(np.argmax(np.abs(k - g)))
     raise ConvergenceError(
-        f"Tsu–Esaki energy integral did not converge: relative error estimate {history[-1]:.3g} > {rtol:g} "
+        f"Tsu–Esaki energy integral did not converge: error estimate {scale * err_sum:.3g} A/cm^2 "
+        f"(relative {history[-1]:.3g}) > rtol {rtol:g} x |J| + atol {atol_A_cm2:g} A/cm^2 "
         f"(largest error near energy_eV = {0.5 * (a[worst] + b[worst]):.6g})", record)
 
 
 def current_density(barrier, fermi_left_eV, fermi_right_eV, temperature_K, *, model="exact", rtol=1e-4,
-                    supply_mass=None, resonances=True) -> float:
+                    supply_mass=None, resonances=True, atol_A_cm2=ATOL_A_CM2) -> float:
     """Tsu–Esaki tunnelling current density, A/cm^2.
 
     J = q m_s m0 kT / (2 pi^2 hbar^3) * integral of T(E) ln[(1 + e^{(E_FL-E)/kT}) /
@@ -437,6 +473,10 @@ def current_density(barrier, fermi_left_eV, fermi_right_eV, temperature_K, *, mo
         callable `(barrier, energy_eV) -> T`.
     rtol : float, keyword-only
         Relative accuracy of the energy integral (default 1e-4).
+    atol_A_cm2 : float, keyword-only
+        Absolute accuracy, A/cm^2 (default ATOL_A_CM2 = 1e-30, far below any
+        measurable or retention-relevant current); the integral has converged
+        when its error estimate is <= rtol |J| + atol_A_cm2. 0 asks for rtol alone.
     supply_mass : float or None, keyword-only
         Transverse (supply) mass in m0; None (default) takes the left lead's mass.
     resonances : bool, keyword-only
@@ -453,10 +493,10 @@ def current_density(barrier, fermi_left_eV, fermi_right_eV, temperature_K, *, mo
     ValueError
         Non-finite Fermi levels, negative temperature, bad rtol or supply_mass.
     ConvergenceError
-        The adaptive integration did not reach `rtol`.
+        The adaptive integration did not reach rtol |J| + atol_A_cm2.
     """
     return tsu_esaki(barrier, fermi_left_eV, fermi_right_eV, temperature_K, model=model, rtol=rtol,
-                     supply_mass=supply_mass, resonances=resonances).current_A_cm2
+                     supply_mass=supply_mass, resonances=resonances, atol_A_cm2=atol_A_cm2).current_A_cm2
 
 
 # ---------------------------------------------------------------- sweeps
@@ -509,7 +549,7 @@ def bias_for_field(barrier, layer, field_MV_cm, relative_permittivity=None):
 
 
 def current_sweep(barriers, fermi_left_eV, fermi_right_eV, temperature_K, *, model="exact", rtol=1e-4,
-                  supply_mass=None) -> np.ndarray:
+                  supply_mass=None, atol_A_cm2=ATOL_A_CM2) -> np.ndarray:
     """Tsu–Esaki current (A/cm^2) for a sequence of barriers, one per point.
 
     `fermi_left_eV` and `fermi_right_eV` are scalars or one value per barrier.
@@ -523,7 +563,7 @@ def current_sweep(barriers, fermi_left_eV, fermi_right_eV, temperature_K, *, mod
     out = np.empty(n)
     for i, bar in enumerate(barriers):
         out[i] = tsu_esaki(bar, efl[i], efr[i], temperature_K, model=model, rtol=rtol,
-                           supply_mass=supply_mass).current_A_cm2
+                           supply_mass=supply_mass, atol_A_cm2=atol_A_cm2).current_A_cm2
     return out
 
 
@@ -540,7 +580,7 @@ class CurrentVoltage:
 
 
 def current_voltage(barrier_at, bias_V, temperature_K, *, fermi_left_eV=0.0, model="exact", rtol=1e-4,
-                    supply_mass=None) -> CurrentVoltage:
+                    supply_mass=None, atol_A_cm2=ATOL_A_CM2) -> CurrentVoltage:
     """J–V sweep: `barrier_at(bias)` gives the Barrier at each bias of `bias_V`.
 
     The right lead's Fermi level is fermi_left_eV - bias (a bias raises the right
@@ -558,7 +598,7 @@ def current_voltage(barrier_at, bias_V, temperature_K, *, fermi_left_eV=0.0, mod
     evals = np.empty(biases.size, dtype=np.int64)
     for i, v in enumerate(biases):
         res = tsu_esaki(barrier_at(float(v)), fermi_left_eV, fermi_left_eV - v, temperature_K, model=model,
-                        rtol=rtol, supply_mass=supply_mass)
+                        rtol=rtol, supply_mass=supply_mass, atol_A_cm2=atol_A_cm2)
         cur[i], evals[i] = res.current_A_cm2, res.evaluations
     for arr in (biases, cur, evals):
         arr.flags.writeable = False
@@ -566,7 +606,7 @@ def current_voltage(barrier_at, bias_V, temperature_K, *, fermi_left_eV=0.0, mod
 
 
 def current_field(barrier, layer, field_MV_cm, temperature_K, *, relative_permittivity=None, fermi_left_eV=0.0,
-                  model="exact", rtol=1e-4, supply_mass=None) -> CurrentVoltage:
+                  model="exact", rtol=1e-4, supply_mass=None, atol_A_cm2=ATOL_A_CM2) -> CurrentVoltage:
     """J–F sweep: the current at the biases that put `field_MV_cm` into layer `layer`.
 
     The biases follow `bias_for_field` and the profiles `with_bias` (series
@@ -576,4 +616,4 @@ def current_field(barrier, layer, field_MV_cm, temperature_K, *, relative_permit
     biases = np.atleast_1d(bias_for_field(barrier, layer, field_MV_cm, relative_permittivity))
     return current_voltage(partial(with_bias, barrier, relative_permittivity=relative_permittivity), biases,
                            temperature_K, fermi_left_eV=fermi_left_eV, model=model, rtol=rtol,
-                           supply_mass=supply_mass)
+                           supply_mass=supply_mass, atol_A_cm2=atol_A_cm2)
