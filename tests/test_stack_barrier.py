@@ -241,8 +241,8 @@ def test_from_shipped_case():
     assert data.count == 1 and data.gate_kind == "metal"
     st = stack_state(data, field_MV_cm=8.0, field_layer=0)
     assert_allclose(st.stack_V, 8.0 * 0.1 * data.thickness_nm[0], rtol=1e-12)
-    with pytest.raises(ValueError, match="geometry.kind"):
-        stack_data(load_case("cases/demo-cell-cylindrical.toml"))
+    cyl = stack_data(load_case("cases/demo-cell-cylindrical.toml"))
+    assert cyl.cylindrical and cyl.channel_radius_nm == 20.0 and cyl.core_radius_nm == 10.0
     assert replace(data, temperature_K=77.0).temperature_K == 77.0
 
 

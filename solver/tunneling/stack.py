@@ -1,8 +1,9 @@
 """The tunneling barrier of a case's dielectric stack at a bias.
 
-Planar stack, x from the gate electrode toward the channel (as the contract's
-planar ``x_nm``). Energies are in eV on one absolute scale whose zero is the
-channel Fermi level; the gate Fermi level is then ``-gate_V``.
+Planar or coaxial (gate-all-around) stack, x from the gate electrode toward the
+channel (as the contract's planar ``x_nm``; in a cylinder x runs inward, along
+-r). Energies are in eV on one absolute scale whose zero is the channel Fermi
+level; the gate Fermi level is then ``-gate_V``.
 
 Electrostatics of the stack
 ---------------------------
@@ -16,7 +17,20 @@ stack voltage
 
     D_0 = (eps0 V_stack - sum_j sigma_j X_j) / X,   X = sum_i t_i / eps_i,
 
-with X_j the sum of t / eps from sheet j to the channel end. Band edges come
+with X_j the sum of t / eps from sheet j to the channel end.
+
+Coaxial stack (geometry "cylindrical"): the channel of radius r_0 is inside,
+the layers follow outward to the gate at r_N. Gauss's law gives
+D(r) = lambda / (2 pi r) between sheets, so r D is constant there, jumps by
+sigma r_c at a sheet of density sigma (per area at its own radius r_c; charge
+per length sigma 2 pi r_c), and the potential goes as ln r inside each layer:
+E_i(r) = V / [eps_i r sum_j ln(r_{j+1}/r_j) / eps_j] without sheets (physics-
+data sheet Sec. 5.5; Jackson, Classical Electrodynamics). The planar formulas
+hold with t/eps replaced by r_0 ln(r_out/r_in)/eps, D by the displacement
+scaled to the channel surface r D / r_0, and sigma by sigma r_c / r_0; they
+become the planar ones as r_0 -> infinity. A segment's field is reported at
+both of its ends (``segment_field_MV_cm`` at the channel side,
+``segment_field_gate_side_MV_cm`` at the gate side). Band edges come
 from vacuum-level alignment through the electron affinities: E_c = E_vac - chi,
 E_v = E_vac - chi - E_g (Robertson, EPJAP 28, 265 (2004) uses the same rule
 where no direct offset is given).
@@ -34,7 +48,19 @@ D_L = -(Q_s + Q_interface). The gate voltage is then
 V_G = phi_ms + psi_s + V_stack. This is an estimate of the surface state that
 lets a field or gate-voltage sweep run without the self-consistent solve; the
 self-consistent band profile feeds the same Barrier through
-`barrier_from_profile`.
+`state_from_solution` or `barrier_from_profile`.
+
+In a cylinder the channel is a shell (r_core < r < r_0; r_core = 0 for a solid
+channel; an uncharged core dielectric carries no displacement, so the field
+vanishes at r_core). The same classical model (Boltzmann carriers, complete
+ionization, no interface traps) is solved there without the planar closed
+form: the radial Poisson equation (1/r) d/dr (r eps_s dpsi/dr) = -rho(psi) with
+zero flux at r_core and the flux r_0 Q_s at the surface, finite volumes on a
+mesh graded toward the surface (0.002 nm there), Newton with a numba kernel.
+It is exact for the model (thin shells fully deplete, which the planar
+relation cannot describe) and agrees with the classical Boltzmann solve of
+`solver.solve` to its mesh error (tests/test_stack_barrier.py). Q_s is per
+area of the channel surface.
 
 Orientation of the Barrier
 --------------------------
@@ -45,6 +71,22 @@ layers therefore appear channel-first (reversed with respect to x).
 Holes are handled in the hole picture: the hole energy is minus the electron
 energy, the "band edge" of a layer for holes is -E_v, and the hole Fermi level
 of a lead is minus its electron Fermi level.
+
+Coaxial barriers: the potential is ln r inside each layer, so each segment is
+cut into linear pieces, equal steps in ln r (the chord error of ln r is then
+the same in every piece), each treated exactly by the Airy kernel and shifted
+by the mean of the curve above its chord (the least-squares line of the piece;
+this removes the leading, one-signed error of the chords). The count per
+segment is the smallest n with |drop| ln(r_out/r_in) / (8 n^2) <= ``curvature_tol_eV``
+(the chord's largest deviation from ln r); the default gives the current to
+~1e-4 relative (convergence test in tests/test_stack_barrier.py). The
+transmission is the 1-D one along the radius (angular momentum l = 0 of the
+transverse motion neglected) with the planar Tsu–Esaki supply of the emitter:
+the standard approximation while the radii are much larger than the carriers'
+wavelength (~1 nm). The current density is per area of the emitting surface
+(the channel surface for channel emission, the gate surface for gate
+emission); per area at radius r it scales as r_emitter / r. The image force
+uses the planar image term (distance from the emitter << radius).
 
 Metal leads are free-electron bands with mass 1 m0 (a documented assumption,
 ``metal_mass`` changes it) whose band bottom lies ``metal_fermi_depth_eV``
@@ -57,6 +99,7 @@ import math
 from dataclasses import dataclass, field, replace
 from typing import Sequence
 
+import numba
 import numpy as np
 
 from solver.units import (
@@ -123,6 +166,9 @@ class StackData:
     channel_interface_charge_cm2: float
     channel_electron_mass: float
     channel_hole_mass: float
+    geometry: str = "planar"  # "planar" | "cylindrical"
+    channel_radius_nm: float = math.inf  # cylindrical: outer radius of the channel (the stack starts there)
+    core_radius_nm: float = 0.0  # cylindrical: inner radius of the channel shell (0 = solid)
 
     def __post_init__(self):
         n = len(self.thickness_nm)
@@ -149,10 +195,33 @@ class StackData:
                 raise ValueError(f"layer {i}: charge_cm2 and electron_affinity_eV must be finite")
         if self.gate_kind not in ("metal", "semiconductor"):
             raise ValueError(f"gate kind must be 'metal' or 'semiconductor', got {self.gate_kind!r}")
+        if self.geometry not in ("planar", "cylindrical"):
+            raise ValueError(f"geometry must be 'planar' or 'cylindrical', got {self.geometry!r}")
+        object.__setattr__(self, "channel_radius_nm", float(self.channel_radius_nm))
+        object.__setattr__(self, "core_radius_nm", float(self.core_radius_nm))
+        if self.geometry == "cylindrical":
+            r0, rc = self.channel_radius_nm, self.core_radius_nm
+            if not (math.isfinite(r0) and r0 > 0):
+                raise ValueError(f"channel_radius_nm must be a finite number > 0 for a cylinder, got {r0}")
+            if not (math.isfinite(rc) and 0.0 <= rc < r0):
+                raise ValueError(f"core_radius_nm must lie in [0, channel_radius_nm = {r0:g}), got {rc}")
 
     @property
     def count(self) -> int:
         return len(self.thickness_nm)
+
+    @property
+    def cylindrical(self) -> bool:
+        return self.geometry == "cylindrical"
+
+    @property
+    def radii_nm(self) -> tuple[float, ...]:
+        """Cylinder: radius of every layer boundary, gate first (count + 1 values,
+        the last is the channel radius). Raises ValueError for a planar stack."""
+        if not self.cylindrical:
+            raise ValueError("radii_nm: a planar stack has no radii")
+        r = self.channel_radius_nm + np.concatenate(([0.0], np.cumsum(self.thickness_nm[::-1])))
+        return tuple(float(v) for v in r[::-1])
 
     def with_thickness(self, index: int, thickness_nm: float) -> "StackData":
         t = list(self.thickness_nm)
@@ -161,17 +230,17 @@ class StackData:
 
 
 def stack_data(case) -> StackData:
-    """The plain numbers of ``case``'s planar stack (see `StackData`).
-
-    Raises CaseError for a cylindrical case: the builder here is planar.
-    """
+    """The plain numbers of ``case``'s stack, planar or cylindrical (see `StackData`)."""
     from solver.errors import CaseError
 
     geometry = getattr(case, "geometry", None)
-    if geometry is not None and getattr(geometry, "kind", "planar") != "planar":
-        raise CaseError(
-            f"geometry.kind: {geometry.kind!r} is not supported by the stack barrier builder "
-            "(planar only); build the barrier from a solved band profile instead")
+    kind = getattr(geometry, "kind", "planar") if geometry is not None else "planar"
+    if kind not in ("planar", "cylindrical"):
+        raise CaseError(f"geometry.kind: {kind!r} is not supported; allowed 'planar', 'cylindrical'")
+    geo = dict(geometry="planar")
+    if kind == "cylindrical":
+        geo = dict(geometry="cylindrical", channel_radius_nm=float(geometry.channel_radius_nm),
+                   core_radius_nm=float(geometry.core_radius_nm or 0.0))
     T = float(case.temperature_K)
     layers = tuple(case.layers)
     if not layers:
@@ -221,6 +290,7 @@ def stack_data(case) -> StackData:
         # `stack_barrier(emitter_mass=...)` overrides it.
         channel_electron_mass=float(getattr(sc, "tunnel_mass", None) or sc.transverse_mass),
         channel_hole_mass=float(getattr(sc, "heavy_hole_mass", None) or sc.hole_dos_mass),
+        **geo,
     )
 
 
@@ -231,23 +301,24 @@ def _call(value, T):
 # ------------------------------------------------------------------ electrostatics
 
 
-def stack_fields(thickness_nm: Sequence[float], permittivity: Sequence[float],
-                 charge_cm2: Sequence[float], charge_position: Sequence[float],
-                 stack_V: float):
-    """Fields of a planar stack with sheet charges for a voltage across it.
+@dataclass(frozen=True)
+class _Segments:
+    """Fields of the stack's segments (gate first) for one stack voltage, SI."""
 
-    Parameters are per layer, gate first; ``stack_V`` = potential of the gate
-    side minus potential of the channel side (V). Returns
-    ``(segment_layer, segment_thickness_nm, segment_field_V_m, displacement_C_m2)``
-    where the field is along +x (gate -> channel) and ``displacement_C_m2`` is
-    D in each segment. A layer whose sheet charge sits strictly inside it gives
-    two segments.
-    """
-    t = np.asarray(thickness_nm, float)  # nm; converted once below
-    eps = np.asarray(permittivity, float)
-    sigma = np.asarray(charge_cm2, float) * PER_CM2_TO_PER_M2 * Q_C
-    pos = np.asarray(charge_position, float)
-    seg_layer, seg_t, sheet_after = [], [], []  # sheet_after: sigma at the segment's channel-side end
+    layer: tuple[int, ...]
+    thickness_nm: np.ndarray
+    radius_out_nm: np.ndarray | None  # gate-side radius of each segment (cylinder), else None
+    radius_in_nm: np.ndarray | None  # channel-side radius
+    field_in: np.ndarray  # V/m along +x at the channel-side end
+    field_out: np.ndarray  # V/m along +x at the gate-side end
+    displacement_in: np.ndarray  # C/m^2 at the channel-side end
+    drop_V: np.ndarray  # potential of the gate side minus the channel side, per segment
+
+
+def _split(t, sigma, pos):
+    """Segments of the layers (a sheet strictly inside a layer splits it) and the
+    sheet density at each segment's channel-side end."""
+    seg_layer, seg_t, sheet_after = [], [], []
     for i in range(t.size):
         p = pos[i]
         if sigma[i] != 0.0 and 0.0 < p < 1.0:
@@ -256,29 +327,76 @@ def stack_fields(thickness_nm: Sequence[float], permittivity: Sequence[float],
             sheet_after += [sigma[i], 0.0]
         elif sigma[i] != 0.0 and p == 0.0:
             # sheet at the layer's gate-side face: it sits before this layer
+            # (on the gate electrode itself it does not change the fields inside)
             if seg_layer:
                 sheet_after[-1] += sigma[i]
-                seg_layer.append(i)
-                seg_t.append(t[i])
-                sheet_after.append(0.0)
-            else:  # on the gate electrode itself: it does not change the fields inside
-                seg_layer.append(i)
-                seg_t.append(t[i])
-                sheet_after.append(0.0)
+            seg_layer.append(i)
+            seg_t.append(t[i])
+            sheet_after.append(0.0)
         else:
             seg_layer.append(i)
             seg_t.append(t[i])
             sheet_after.append(sigma[i] if p == 1.0 else 0.0)
-    seg_t_nm = np.array(seg_t)
-    seg_t = seg_t_nm * NM_TO_M
+    return seg_layer, np.array(seg_t), np.array(sheet_after)
+
+
+def _segments(thickness_nm, permittivity, charge_cm2, charge_position, stack_V,
+              channel_radius_nm=None) -> _Segments:
+    t = np.asarray(thickness_nm, float)
+    eps = np.asarray(permittivity, float)
+    sigma = np.asarray(charge_cm2, float) * PER_CM2_TO_PER_M2 * Q_C
+    pos = np.asarray(charge_position, float)
+    seg_layer, seg_t_nm, after = _split(t, sigma, pos)
     seg_eps = eps[np.array(seg_layer)]
-    after = np.array(sheet_after)
-    # D in segment k = D_0 + sum of the sheets before it
-    before = np.concatenate(([0.0], np.cumsum(after)[:-1]))
-    x = seg_t / seg_eps  # t / eps per segment
-    d0 = (EPSILON0_F_M * stack_V - np.sum(before * x)) / np.sum(x)
+    if channel_radius_nm is None:
+        r_out = r_in = None
+        w = seg_t_nm * NM_TO_M / seg_eps  # t / eps per segment
+        sheets = after
+    else:
+        r0 = float(channel_radius_nm)
+        bounds = r0 + np.concatenate(([0.0], np.cumsum(seg_t_nm[::-1])))[::-1]  # gate first
+        r_out, r_in = bounds[:-1], bounds[1:]
+        # r_0 ln(r_out / r_in) / eps; log1p keeps it exact for r_0 >> t
+        w = r0 * NM_TO_M * np.log1p(seg_t_nm / r_in) / seg_eps
+        sheets = after * r_in / r0  # a sheet at r_in carries sigma r_in per length / (2 pi)
+    # (scaled) D in segment k = D_0 + sum of the sheets before it
+    before = np.concatenate(([0.0], np.cumsum(sheets)[:-1]))
+    d0 = (EPSILON0_F_M * stack_V - np.sum(before * w)) / np.sum(w)
     d = d0 + before
-    return tuple(seg_layer), tuple(float(v) for v in seg_t_nm), d / (EPSILON0_F_M * seg_eps), d
+    if r_in is None:
+        e = d / (EPSILON0_F_M * seg_eps)
+        e_in = e_out = e
+        d_in = d
+    else:
+        d_in = d * channel_radius_nm / r_in
+        e_in = d_in / (EPSILON0_F_M * seg_eps)
+        e_out = d * channel_radius_nm / r_out / (EPSILON0_F_M * seg_eps)
+    return _Segments(tuple(seg_layer), seg_t_nm, r_out, r_in, e_in, e_out, d_in,
+                     d * w / EPSILON0_F_M)
+
+
+def _data_segments(data: StackData, stack_V: float) -> _Segments:
+    return _segments(data.thickness_nm, data.permittivity, data.charge_cm2, data.charge_position,
+                     stack_V, data.channel_radius_nm if data.cylindrical else None)
+
+
+def stack_fields(thickness_nm: Sequence[float], permittivity: Sequence[float],
+                 charge_cm2: Sequence[float], charge_position: Sequence[float],
+                 stack_V: float, *, channel_radius_nm: float | None = None):
+    """Fields of a planar (or coaxial) stack with sheet charges for a voltage across it.
+
+    Parameters are per layer, gate first; ``stack_V`` = potential of the gate
+    side minus potential of the channel side (V). Returns
+    ``(segment_layer, segment_thickness_nm, segment_field_V_m, displacement_C_m2)``
+    where the field is along +x (gate -> channel) and ``displacement_C_m2`` is
+    D in each segment. A layer whose sheet charge sits strictly inside it gives
+    two segments. ``channel_radius_nm``: a coaxial stack around a channel of
+    that radius (layers outward from it, the last layer at the channel); field
+    and displacement are then those at each segment's channel-side end (see the
+    module docstring; sheet densities per area at their own radius).
+    """
+    seg = _segments(thickness_nm, permittivity, charge_cm2, charge_position, stack_V, channel_radius_nm)
+    return seg.layer, tuple(float(v) for v in seg.thickness_nm), seg.field_in, seg.displacement_in
 
 
 def _bulk_channel(data: StackData):
@@ -315,6 +433,8 @@ def _surface_potential(data: StackData, displacement_C_m2: float) -> float:
     from scipy.optimize import brentq
 
     target = -(displacement_C_m2 + data.channel_interface_charge_cm2 * PER_CM2_TO_PER_M2 * Q_C)
+    if data.cylindrical:
+        return float(shell_potential(data, target)[1][-1])
     f = lambda psi: float(surface_charge_C_m2(data, psi)) - target  # noqa: E731, decreasing in psi
     lo, hi = -1.0, 1.0
     while f(lo) < 0.0:
@@ -328,14 +448,163 @@ def _surface_potential(data: StackData, displacement_C_m2: float) -> float:
     return float(brentq(f, lo, hi, xtol=1e-13, rtol=1e-14, maxiter=200))
 
 
+# ------------------------------------------------------- the channel shell of a cylinder
+
+SHELL_SURFACE_SPACING_NM = 0.002  # first mesh step at the channel surface
+SHELL_GROWTH = 1.1  # growth of the steps inward
+SHELL_MAX_SPACING_NM = 0.5  # largest step within SHELL_DENSE_DEPTH_NM of the surface
+SHELL_DENSE_DEPTH_NM = 25.0  # deeper, steps grow as 2 % of the depth (the neutral interior)
+SHELL_TOLERANCE_V = 1e-11  # Newton: largest potential update at convergence
+SHELL_MAX_ITERATIONS = 400
+
+
+def shell_mesh_nm(channel_radius_nm: float, core_radius_nm: float = 0.0) -> np.ndarray:
+    """Nodes (nm, increasing) of the channel shell core_radius .. channel_radius,
+    graded toward the surface (see the SHELL_* constants)."""
+    r0, rc = float(channel_radius_nm), float(core_radius_nm)
+    depth = [0.0]
+    h = SHELL_SURFACE_SPACING_NM
+    span = r0 - rc
+    while depth[-1] < span:
+        d = depth[-1]
+        cap = SHELL_MAX_SPACING_NM if d < SHELL_DENSE_DEPTH_NM else max(SHELL_MAX_SPACING_NM, 0.02 * d)
+        h = min(h * SHELL_GROWTH, cap) if len(depth) > 1 else h
+        depth.append(d + h)
+    depth[-1] = span
+    if len(depth) > 2 and depth[-1] - depth[-2] < 0.3 * (depth[-2] - depth[-3]):
+        del depth[-2]  # no sliver next to the inner boundary
+    return (r0 - np.array(depth))[::-1]
+
+
+@numba.njit(cache=True)
+def _shell_newton(r, cond, vol, p0, n0, kT, eps_s, surface_flux, psi, tol, max_iter):
+    """Newton for the classical radial Poisson equation of a channel shell.
+
+    Finite volumes per radian: box i holds the charge vol[i] rho(psi_i)
+    (rho = q [p0 (e^-u - 1) - n0 (e^u - 1)], u = psi/kT, so that psi = 0 is
+    the neutral channel); the flux r eps_s E_r between nodes i and i+1 is
+    -eps_s cond[i] (psi_{i+1} - psi_i) (cond = 1 / ln(r_{i+1}/r_i), exact for a
+    charge-free interval); zero flux at the inner boundary, ``surface_flux``
+    (= r_0 Q_s) at the outer one. Updates are damped per node to
+    Delta / (1 + |Delta| / (4 kT)). Returns (iterations, last update); ``psi``
+    is updated in place."""
+    n = r.size
+    diag = np.empty(n)
+    lower = np.empty(n)
+    rhs = np.empty(n)
+    cp = np.empty(n)
+    dp = np.empty(n)
+    q = 1.602176634e-19
+    step = 1e300
+    it = 0
+    while it < max_iter:
+        it += 1
+        for i in range(n):
+            u = psi[i] / kT
+            if u > 300.0:
+                u = 300.0
+            elif u < -300.0:
+                u = -300.0
+            ep = math.exp(u)
+            em = math.exp(-u)
+            rho = q * (p0 * (em - 1.0) - n0 * (ep - 1.0))
+            drho = -q * (p0 * em + n0 * ep) / kT
+            f = -vol[i] * rho
+            dd = -vol[i] * drho
+            if i > 0:
+                f += eps_s * cond[i - 1] * (psi[i] - psi[i - 1])
+                dd += eps_s * cond[i - 1]
+            if i < n - 1:
+                f -= eps_s * cond[i] * (psi[i + 1] - psi[i])
+                dd += eps_s * cond[i]
+            else:
+                f += surface_flux
+            diag[i] = dd
+            rhs[i] = -f
+            lower[i] = -eps_s * cond[i - 1] if i > 0 else 0.0
+        # Thomas algorithm, symmetric tridiagonal (upper[i] = lower[i + 1])
+        cp[0] = (lower[1] if n > 1 else 0.0) / diag[0]
+        dp[0] = rhs[0] / diag[0]
+        for i in range(1, n):
+            m = diag[i] - lower[i] * cp[i - 1]
+            cp[i] = (lower[i + 1] / m) if i < n - 1 else 0.0
+            dp[i] = (rhs[i] - lower[i] * dp[i - 1]) / m
+        step = 0.0
+        for i in range(n - 1, -1, -1):
+            delta = dp[i] - (cp[i] * dp[i + 1] if i < n - 1 else 0.0)
+            dp[i] = delta
+            a = abs(delta)
+            if a > step:
+                step = a
+            psi[i] += delta / (1.0 + a / (4.0 * kT))
+        if step < tol:
+            break
+    return it, step
+
+
+_SHELL_CACHE: dict = {}  # (r0, rc) -> (r, cond, vol, last psi); meshes and a warm start per geometry
+
+
+def shell_potential(data: StackData, surface_charge_C_m2: float):
+    """Classical potential of a cylinder's channel shell for a semiconductor
+    charge ``surface_charge_C_m2`` (per area of the channel surface; Q_s < 0 for
+    depletion/inversion of p-type). Returns ``(r_nm, psi_V)`` (the last value is
+    the surface potential). Raises ConvergenceError if Newton does not converge.
+    """
+    from solver.errors import ConvergenceError, ConvergenceRecord
+
+    if not data.cylindrical:
+        raise ValueError("shell_potential: the stack is planar")
+    key = (data.channel_radius_nm, data.core_radius_nm)
+    entry = _SHELL_CACHE.get(key)
+    if entry is None:
+        r_nm = shell_mesh_nm(*key)
+        r = r_nm * NM_TO_M
+        if r[0] == 0.0:  # solid channel: the first interval from the axis
+            cond = np.empty(r.size - 1)
+            cond[1:] = 1.0 / np.log(r[2:] / r[1:-1])
+            cond[0] = 0.5 * (r[0] + r[1]) / (r[1] - r[0])
+        else:
+            cond = 1.0 / np.log(r[1:] / r[:-1])
+        half = np.concatenate(([r[0]], 0.5 * (r[1:] + r[:-1]), [r[-1]]))
+        vol = 0.5 * (half[1:] ** 2 - half[:-1] ** 2)
+        entry = [r_nm, cond, vol, np.zeros(r.size)]
+        if len(_SHELL_CACHE) > 64:
+            _SHELL_CACHE.clear()
+        _SHELL_CACHE[key] = entry
+    r_nm, cond, vol, last = entry
+    n0, p0, kT, _ = _bulk_channel(data)
+    eps_s = data.channel_permittivity * EPSILON0_F_M
+    flux = data.channel_radius_nm * NM_TO_M * float(surface_charge_C_m2)
+    psi = last.copy()
+    it, step = _shell_newton(r_nm * NM_TO_M, cond, vol, p0, n0, kT, eps_s, flux, psi,
+                             SHELL_TOLERANCE_V, SHELL_MAX_ITERATIONS)
+    if not step < SHELL_TOLERANCE_V:
+        psi = np.zeros(r_nm.size)  # once more from the neutral channel
+        it2, step = _shell_newton(r_nm * NM_TO_M, cond, vol, p0, n0, kT, eps_s, flux, psi,
+                                  SHELL_TOLERANCE_V, SHELL_MAX_ITERATIONS)
+        it += it2
+    if not step < SHELL_TOLERANCE_V or not np.all(np.isfinite(psi)):
+        record = ConvergenceRecord(converged=False, iterations=int(it), residual_history=(float(step),),
+                                   message="classical channel-shell Poisson (Newton)", residual_unit="V")
+        raise ConvergenceError(f"channel shell potential did not converge for Q_s = "
+                               f"{surface_charge_C_m2:g} C/m^2 (last update {step:.3g} V)", record)
+    entry[3] = psi
+    return r_nm, psi
+
+
 @dataclass(frozen=True)
 class StackState:
-    """The electrostatic state of the planar stack at one bias.
+    """The electrostatic state of the stack at one bias.
 
     Energies are in eV with the channel Fermi level at 0. Segments are listed
     from the gate to the channel; ``vacuum_level_eV`` has one entry per segment
     boundary (segments + 1). Fields are along +x (gate -> channel): positive
-    when the gate is the more positive electrode.
+    when the gate is the more positive electrode. ``segment_field_MV_cm`` is
+    at each segment's channel-side end, ``segment_field_gate_side_MV_cm`` at its
+    gate-side end (equal in a planar stack; in a cylinder the field goes as 1/r
+    and the vacuum level as ln r in between). ``segment_radius_nm``: the radii
+    of the segment boundaries, gate first (cylinder; empty for a planar stack).
     """
 
     stack_V: float
@@ -344,10 +613,20 @@ class StackState:
     segment_layer: tuple[int, ...]
     segment_thickness_nm: tuple[float, ...]
     segment_field_MV_cm: tuple[float, ...]
-    layer_fields_MV_cm: tuple[float, ...]  # per layer, channel-side segment
+    layer_fields_MV_cm: tuple[float, ...]  # per layer, at its channel-side edge
     vacuum_level_eV: tuple[float, ...]
     channel_conduction_eV: float  # channel band edges at the surface
     channel_valence_eV: float
+    segment_field_gate_side_MV_cm: tuple[float, ...] = ()
+    segment_radius_nm: tuple[float, ...] = ()
+
+    def __post_init__(self):
+        if not self.segment_field_gate_side_MV_cm:
+            object.__setattr__(self, "segment_field_gate_side_MV_cm", tuple(self.segment_field_MV_cm))
+
+    @property
+    def cylindrical(self) -> bool:
+        return bool(self.segment_radius_nm)
 
     @property
     def gate_fermi_eV(self) -> float:
@@ -357,6 +636,12 @@ class StackState:
     def segment_x_nm(self) -> np.ndarray:
         return np.concatenate(([0.0], np.cumsum(self.segment_thickness_nm)))
 
+    def interface_field_MV_cm(self, side: str) -> float:
+        """Signed field along +x at the stack's gate-side face (``side="gate"``)
+        or at its channel-side face (``"channel"``): the injecting interface."""
+        _check_choice("side", side, EMITTERS)
+        return float(self.segment_field_gate_side_MV_cm[0] if side == "gate" else self.segment_field_MV_cm[-1])
+
 
 def stack_state(data: StackData, *, stack_V: float | None = None, gate_V: float | None = None,
                 field_MV_cm: float | None = None, field_layer: int = -1,
@@ -364,28 +649,27 @@ def stack_state(data: StackData, *, stack_V: float | None = None, gate_V: float 
     """Electrostatic state for exactly one of: the voltage across the stack
     (``stack_V``, gate side minus channel side), the gate voltage (``gate_V``,
     against the channel bulk), or the field along +x in layer ``field_layer``
-    (``field_MV_cm``; at its ``field_side`` = "gate" or "channel" segment when a
-    sheet charge splits it)."""
+    (``field_MV_cm``) at its ``field_side`` = "gate" or "channel" edge (the
+    edge matters when a sheet charge splits the layer or in a cylinder)."""
     given = [v is not None for v in (stack_V, gate_V, field_MV_cm)]
     if sum(given) != 1:
         raise ValueError("stack_state: give exactly one of stack_V, gate_V, field_MV_cm")
+    _check_choice("field_side", field_side, EMITTERS)
     _, _, kT, ec_minus_ef = _bulk_channel(data)
     phi_s = data.channel_affinity_eV + ec_minus_ef  # channel work function, eV
     phi_ms = data.gate_work_function_eV - phi_s
-    seg_layer, _, _, _ = stack_fields(data.thickness_nm, data.permittivity,
-                                      data.charge_cm2, data.charge_position, 0.0)
     if field_MV_cm is not None:
         n = data.count
         if not -n <= field_layer < n:
             raise ValueError(f"stack_state: field_layer {field_layer} out of range for {n} layers")
         layer = field_layer % n
         # fields are linear in the stack voltage: E = a V + b per segment
-        _, _, e0, _ = stack_fields(data.thickness_nm, data.permittivity, data.charge_cm2,
-                                   data.charge_position, 0.0)
-        _, _, e1, _ = stack_fields(data.thickness_nm, data.permittivity, data.charge_cm2,
-                                   data.charge_position, 1.0)
-        idx = [k for k, li in enumerate(seg_layer) if li == layer]
-        k = idx[0] if field_side == "gate" else idx[-1]
+        s0, s1 = _data_segments(data, 0.0), _data_segments(data, 1.0)
+        idx = [k for k, li in enumerate(s0.layer) if li == layer]
+        if field_side == "gate":
+            k, e0, e1 = idx[0], s0.field_out, s1.field_out
+        else:
+            k, e0, e1 = idx[-1], s0.field_in, s1.field_in
         stack_V = (field_MV_cm * MV_PER_CM_TO_V_PER_M - e0[k]) / (e1[k] - e0[k])
     if gate_V is not None:
         from scipy.optimize import brentq
@@ -406,9 +690,8 @@ def stack_state(data: StackData, *, stack_V: float | None = None, gate_V: float 
 
 
 def _state_from_stack(data: StackData, stack_V: float, phi_ms: float, ec_minus_ef: float) -> StackState:
-    seg_layer, seg_t, e, d = stack_fields(data.thickness_nm, data.permittivity,
-                                          data.charge_cm2, data.charge_position, stack_V)
-    d_channel = float(d[-1])
+    seg = _data_segments(data, stack_V)
+    d_channel = float(seg.displacement_in[-1])
     # a sheet at the channel-side face of the last layer sits on the interface
     if data.charge_position[-1] == 1.0:
         d_channel += data.charge_cm2[-1] * PER_CM2_TO_PER_M2 * Q_C
@@ -416,20 +699,24 @@ def _state_from_stack(data: StackData, stack_V: float, phi_ms: float, ec_minus_e
     gate_V = phi_ms + psi_s + stack_V
     ec_surface = ec_minus_ef - psi_s
     vac_end = ec_surface + data.channel_affinity_eV
-    drops = np.asarray(e) * np.asarray(seg_t) * NM_TO_M  # volts per segment
+    drops = seg.drop_V  # volts per segment
     vac = vac_end - np.concatenate(([0.0], np.cumsum(drops[::-1])))[::-1]
-    fields = np.asarray(e) * V_PER_M_TO_MV_PER_CM
+    fields = seg.field_in * V_PER_M_TO_MV_PER_CM
     layer_fields = [0.0] * data.count
-    for k, li in enumerate(seg_layer):
+    for k, li in enumerate(seg.layer):
         layer_fields[li] = float(fields[k])  # the last segment of a layer is its channel side
+    radii = () if seg.radius_out_nm is None else tuple(
+        float(v) for v in np.append(seg.radius_out_nm, seg.radius_in_nm[-1]))
     return StackState(
         stack_V=float(stack_V), gate_V=float(gate_V), surface_potential_V=float(psi_s),
-        segment_layer=tuple(seg_layer), segment_thickness_nm=tuple(float(v) for v in seg_t),
+        segment_layer=tuple(seg.layer), segment_thickness_nm=tuple(float(v) for v in seg.thickness_nm),
         segment_field_MV_cm=tuple(float(v) for v in fields),
         layer_fields_MV_cm=tuple(layer_fields),
         vacuum_level_eV=tuple(float(v) for v in vac),
         channel_conduction_eV=float(ec_surface),
         channel_valence_eV=float(ec_surface - data.channel_band_gap_eV),
+        segment_field_gate_side_MV_cm=tuple(float(v) for v in seg.field_out * V_PER_M_TO_MV_PER_CM),
+        segment_radius_nm=radii,
     )
 
 
@@ -445,8 +732,9 @@ def state_from_solution(data: StackData, solution) -> StackState:
     surface band edge: the subband-resolved supply of a quantized channel is
     not part of this Barrier.
     """
-    if getattr(solution, "geometry", "planar") != "planar":
-        raise ValueError("state_from_solution: planar solutions only")
+    if getattr(solution, "geometry", "planar") != data.geometry:
+        raise ValueError(f"state_from_solution: the solution is {solution.geometry}, "
+                         f"the stack {data.geometry}")
     ef = float(solution.fermi_level_eV)
     ec = solution.layer_conduction_band_eV
     if len(ec) != data.count:
@@ -535,7 +823,8 @@ def stack_barrier(data: StackData, state: StackState, *, carrier: str = "electro
                   emitter: str = "channel", through: str = "stack", image_force: bool = False,
                   emitter_mass: float | None = None, metal_mass: float = DEFAULT_METAL_MASS,
                   metal_fermi_depth_eV: float = DEFAULT_METAL_FERMI_DEPTH_EV,
-                  image_slices: int = 200, image_method: str = "staircase") -> StackBarrier:
+                  image_slices: int = 200, image_method: str = "staircase",
+                  curvature_tol_eV: float = None) -> StackBarrier:
     """The Barrier that ``carrier`` crosses when ``emitter`` emits it at ``state``.
 
     ``through="stack"``: all dielectric layers up to the far electrode;
@@ -554,23 +843,33 @@ def stack_barrier(data: StackData, state: StackState, *, carrier: str = "electro
     layers are the kernel's fast path) or linear pieces (``"linear"``, each
     treated exactly by the Airy kernel; slower, and no more accurate per piece
     near the emitter where the image term curves most).
+    ``curvature_tol_eV`` (cylinder): largest chord deviation from the ln r
+    profile that sets the number of linear pieces per segment (default
+    CURVATURE_TOL_EV; see the module docstring).
     """
     _check_choice("through", through, THROUGH)
     _check_choice("image_method", image_method, ("linear", "staircase"))
     emission_sign(carrier, emitter)  # checks both names
     n = data.count
-    seg_layer = list(state.segment_layer)
+    if state.cylindrical != data.cylindrical:
+        raise ValueError(f"stack_barrier: the state is {'cylindrical' if state.cylindrical else 'planar'}, "
+                         f"the stack {data.geometry}")
     vac = np.asarray(state.vacuum_level_eV)
-    t = np.asarray(state.segment_thickness_nm)
+    seg_layer, t, vac_start, vac_end, vac_exact = _pieces(
+        state, CURVATURE_TOL_EV if curvature_tol_eV is None else curvature_tol_eV)
     aff = np.asarray(data.affinity_eV)[seg_layer]
     gap = np.asarray(data.band_gap_eV)[seg_layer]
-    ec_start, ec_end = vac[:-1] - aff, vac[1:] - aff
+    # the pieces' band edges, and the exact profile at the piece ends (heights, drops)
+    ec_start, ec_end = vac_start - aff, vac_end - aff
+    ecx_start, ecx_end = vac_exact[:-1] - aff, vac_exact[1:] - aff
     if carrier == "electron":
         u_start, u_end = ec_start, ec_end
+        ux_start, ux_end = ecx_start, ecx_end
         mass = np.asarray(data.electron_mass)[seg_layer]
         flip = 1.0
     else:  # hole picture: hole energy = -electron energy
         u_start, u_end = -(ec_start - gap), -(ec_end - gap)
+        ux_start, ux_end = -(ecx_start - gap), -(ecx_end - gap)
         mass = np.asarray(data.hole_mass)[seg_layer]
         flip = -1.0
 
@@ -596,11 +895,13 @@ def stack_barrier(data: StackData, state: StackState, *, carrier: str = "electro
     if emitter == "channel":
         order = list(range(len(seg_layer)))[::-1]
         us, ue = u_end[order], u_start[order]
+        usx, uex = ux_end[order], ux_start[order]
         emit_lead, emit_fermi, emit_ref = chan_lead, chan_fermi_c, chan_ref
         coll_lead, coll_fermi = gate_lead, gate_fermi_c
     else:
         order = list(range(len(seg_layer)))
         us, ue = u_start[order], u_end[order]
+        usx, uex = ux_start[order], ux_end[order]
         emit_lead, emit_fermi, emit_ref = gate_lead, gate_fermi_c, gate_ref
         coll_lead, coll_fermi = chan_lead, chan_fermi_c
     if emitter_mass is not None:
@@ -617,15 +918,15 @@ def stack_barrier(data: StackData, state: StackState, *, carrier: str = "electro
         keep = inj_segments
         nxt = layers_in_order[keep[-1] + 1]
         next_seg = keep[-1] + 1
-        edge = us[next_seg]
+        edge = usx[next_seg]
         next_mass = (data.electron_mass if carrier == "electron" else data.hole_mass)[nxt]
         coll_lead = (float(edge), float(next_mass))
         us, ue, thick, m = us[keep], ue[keep], thick[keep], m[keep]
         layers_in_order = layers_in_order[:len(keep)]
 
-    field_inj = abs(float(state.segment_field_MV_cm[order[0]]))
-    drop = float(us[0] - ue[inj_segments[-1]])
-    height = float(us[0] - emit_ref)
+    field_inj = abs(state.interface_field_MV_cm(emitter))
+    drop = float(usx[0] - uex[inj_segments[-1]])
+    height = float(usx[0] - emit_ref)
     layer_order = tuple(dict.fromkeys(layers_in_order))
 
     if image_force:
@@ -645,6 +946,57 @@ def stack_barrier(data: StackData, state: StackState, *, carrier: str = "electro
         injecting_optical_permittivity=float(data.optical_permittivity[inj]),
         layer_order=layer_order, image_force=bool(image_force), state=state,
     )
+
+
+CURVATURE_TOL_EV = 3e-4  # default chord tolerance of the coaxial pieces: J to ~1e-4 (tests)
+
+
+def _pieces(state: StackState, tol_eV: float):
+    """Linear pieces of the vacuum level, gate first: (layer per piece,
+    thickness_nm, vacuum level at the gate-side and channel-side ends, the
+    exact profile at the piece boundaries).
+
+    Planar: one piece per segment. Cylinder: each segment's ln r profile is cut
+    into n pieces of equal ratio r_{j}/r_{j+1} (n from the chord criterion
+    |drop| ln(r_out/r_in) / (8 n^2) <= tol_eV), each shifted by the mean of the
+    profile above its chord.
+    """
+    vac = np.asarray(state.vacuum_level_eV, float)
+    t = np.asarray(state.segment_thickness_nm, float)
+    layers = list(state.segment_layer)
+    if not state.cylindrical:
+        return layers, t, vac[:-1], vac[1:], vac
+    if not (tol_eV > 0 and math.isfinite(tol_eV)):
+        raise ValueError(f"curvature_tol_eV must be a finite number > 0, got {tol_eV!r}")
+    radii = np.asarray(state.segment_radius_nm, float)
+    out_layer, out_t, out_s, out_e, exact = [], [], [], [], [vac[:1]]
+    for k in range(t.size):
+        r_out, r_in = radii[k], radii[k + 1]
+        drop = vac[k + 1] - vac[k]  # rise of the vacuum level toward the channel
+        lnr = math.log1p(t[k] / r_in)
+        count = max(1, math.ceil(math.sqrt(abs(drop) * lnr / (8.0 * tol_eV))))
+        b = drop / lnr  # vac(r) = vac[k] + b ln(r_out / r)
+        j = np.arange(count + 1)
+        rr = r_out * np.exp(-lnr * j / count)  # decreasing
+        rr[-1] = r_in
+        vals = vac[k] + b * (lnr * j / count)
+        vals[-1] = vac[k + 1]
+        # mean of (profile - chord) over a piece [a, c] in r, e = 1 - a/c:
+        # -b (e^2/12 + e^3/12 + ...); exact form for larger e
+        e = -np.expm1(-lnr / count)
+        if e < 1e-3:
+            shift = -b * e * e / 12.0 * (1.0 + e)
+        else:
+            q = 1.0 - e
+            big = -math.log(q)
+            shift = b * (1.0 - q * big / e - 0.5 * big)
+        out_layer += [layers[k]] * count
+        out_t.append(-np.diff(rr))
+        out_s.append(vals[:-1] + shift)
+        out_e.append(vals[1:] + shift)
+        exact.append(vals[1:])
+    return (out_layer, np.concatenate(out_t), np.concatenate(out_s), np.concatenate(out_e),
+            np.concatenate(exact))
 
 
 def _image_profile(us, ue, thick, m, layers_in_order, data, emit_lead, coll_lead, floor_eV, slices,
