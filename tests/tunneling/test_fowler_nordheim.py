@@ -2,10 +2,12 @@
 trapezoid (direct-tunnelling) form, against published forms and the
 physics-data sheet's check values."""
 import math
+import warnings
 
 import numpy as np
 import pytest
 from numpy.testing import assert_allclose
+from scipy import integrate
 from scipy.constants import e, epsilon_0, h, hbar, m_e
 from scipy.special import ellipe, ellipk
 
@@ -27,6 +29,29 @@ from solver.tunneling.fowler_nordheim import (
 from solver.tunneling.wkb import wkb_exponent
 
 F_CHECK = [0.05, 0.1, 0.2, 0.3, 0.5]
+
+
+def quadrature_v_t(f):
+    """v(f) and t(f) from their defining integrals by scipy.integrate.quad (Murphy & Good 1956):
+    v = (3/2) int_{x1}^{x2} sqrt(1 - x - f/(4x)) dx, t = v - (4/3) f dv/df. With
+    1 - x - f/(4x) = (x - x1)(x2 - x)/x and x = x1 + w sin^2(s), w = x2 - x1, the end-point
+    roots drop out: v = 3 w^2 int_0^{pi/2} sin^2 s cos^2 s / sqrt(x) ds and
+    dv/df = -(3/8) int_0^{pi/2} ds / sqrt(x) (the integrand of v vanishes at the turning
+    points). The peak of 1/sqrt(x) at s ~ sqrt(x1/w) gets break points of its own. Good to
+    ~1e-15 for f >= 1e-10 (quad's tolerance 1e-13 on each piece); below it the small-f
+    structure is beyond quad's relative tolerance."""
+    w = math.sqrt(1.0 - f)
+    x1 = f / (2.0 * (1.0 + w))  # (1 - w)/2 without cancellation
+    s0 = math.sqrt(x1 / w)
+    pts = sorted({0.0, min(s0, 0.5), min(8.0 * s0, 0.7), math.pi / 2})
+
+    def integral(g):
+        return sum(integrate.quad(g, a, b, epsabs=0.0, epsrel=1e-13, limit=200)[0]
+                   for a, b in zip(pts[:-1], pts[1:]) if b > a)
+
+    v = 3.0 * w * w * integral(lambda s: math.sin(s) ** 2 * math.cos(s) ** 2 / math.sqrt(x1 + w * math.sin(s) ** 2))
+    dv = -0.375 * integral(lambda s: 1.0 / math.sqrt(x1 + w * math.sin(s) ** 2))
+    return v, v - (4.0 / 3.0) * f * dv
 
 
 def test_contract_formula_from_scipy_constants():
@@ -93,13 +118,65 @@ def test_barrier_functions_check_values():
 def test_barrier_functions_against_elliptic_integrals():
     # Murphy & Good 1956 closed form in complete elliptic integrals (R. G. Forbes and
     # J. H. B. Deane, Proc. R. Soc. A 463, 2907 (2007), from memory), y = sqrt(f),
-    # parameter m = (1 - y)/(1 + y) as in scipy.special.ellipk/ellipe:
-    # v = sqrt(1+y) [E(m) - y K(m)],  t = [(1+y) E(m) - y K(m)] / sqrt(1+y)
+    # parameter m = (1 - y)/(1 + y) as in scipy.special.ellipk/ellipe (Legendre form; the
+    # module uses Carlson's R_F, R_D, so this checks the transcription to the symmetric form)
     f = np.array([1e-6, 0.01, 0.15, 0.4, 0.7, 0.95])
     y = np.sqrt(f)
     m = (1 - y) / (1 + y)
-    assert_allclose(murphy_good_v(f), np.sqrt(1 + y) * (ellipe(m) - y * ellipk(m)), rtol=1e-10)
-    assert_allclose(murphy_good_t(f), ((1 + y) * ellipe(m) - y * ellipk(m)) / np.sqrt(1 + y), rtol=1e-10)
+    assert_allclose(murphy_good_v(f), np.sqrt(1 + y) * (ellipe(m) - y * ellipk(m)), rtol=1e-12)
+    assert_allclose(murphy_good_t(f), ((1 + y) * ellipe(m) - y * ellipk(m)) / np.sqrt(1 + y), rtol=1e-12)
+
+
+def test_barrier_functions_against_quadrature():
+    # the defining integrals (Murphy & Good 1956) by scipy.integrate.quad, from f = 1e-10 to
+    # 1 - 1e-9 (v relative there too, v ~ 0.83 (1 - f) near 1): agreement to 1e-12 (seen ~1e-15)
+    f = np.concatenate((np.geomspace(1e-10, 0.5, 21), 1.0 - np.geomspace(0.4, 1e-9, 12)))
+    ref = np.array([quadrature_v_t(x) for x in f])
+    assert_allclose(murphy_good_v(f), ref[:, 0], rtol=1e-12)
+    assert_allclose(murphy_good_t(f), ref[:, 1], rtol=1e-12)
+
+
+def test_small_field_expansion():
+    # v = 1 - (3/16) f [1 + ln(64/f)] and t = 1 - (3/16) f + (f/16) ln(64/f) + O(f^2 ln^2 f):
+    # derived from the expansions of K and E about m = 1 (Abramowitz & Stegun 17.3.34,
+    # 17.3.36) in the elliptic form above. Checked against the quadrature where both hold
+    # (f = 1e-10 .. 1e-8, remainder < 1e-18), the remainder's size against the closed form at
+    # larger f, and the function used at tiny f (where quad cannot resolve the integrand).
+    def series(f):
+        lg = np.log(64.0 / f)
+        return 1.0 - 0.1875 * f * (1.0 + lg), 1.0 - 0.1875 * f + 0.0625 * f * lg
+
+    f = np.geomspace(1e-10, 1e-8, 5)
+    ref = np.array([quadrature_v_t(x) for x in f])
+    sv, st = series(f)
+    assert_allclose(sv, ref[:, 0], rtol=2e-15)
+    assert_allclose(st, ref[:, 1], rtol=2e-15)
+    f = np.geomspace(1e-7, 1e-3, 5)
+    sv, st = series(f)
+    bound = 1e-2 * f**2 * np.log(f) ** 2
+    assert np.all(np.abs(murphy_good_v(f) - sv) < bound) and np.all(np.abs(murphy_good_t(f) - st) < bound)
+    f = np.array([1e-300, 1e-100, 1e-30, 1e-15, 1e-12, 1e-9])
+    sv, st = series(f)
+    assert_allclose(murphy_good_v(f), sv, rtol=1e-15)
+    assert_allclose(murphy_good_t(f), st, rtol=1e-15)
+    # Forbes's fit 1 - f + (f/6) ln f is not this limit: it is off by ~f (ln f / 48 + 0.033)
+    assert abs(forbes_v(1e-9) - murphy_good_v(1e-9)) > 1e-10
+
+
+def test_barrier_functions_quiet_and_monotone_on_all_of_0_1():
+    # no warnings anywhere in [0, 1] (pytest turns warnings into errors; checked here too),
+    # v falls from 1 to 0 and t rises from 1 toward pi/(2 sqrt 2) at f = 1 (m = 0, where
+    # K = E = pi/2 in the elliptic form; Abramowitz & Stegun 17.3.11)
+    f = np.unique(np.concatenate(([0.0], np.geomspace(1e-300, 1.0, 3001), 1.0 - np.geomspace(1e-16, 0.5, 500),
+                                  np.linspace(0.0, 1.0, 2001))))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        v = murphy_good_v(f)
+        t = murphy_good_t(f[f < 1.0])
+    assert v[0] == 1.0 and v[-1] == 0.0 and np.all(np.diff(v) <= 0) and np.all((v >= 0) & (v <= 1))
+    # (t is flat to rounding next to f = 1: allow an ulp of wobble there)
+    assert t[0] == 1.0 and np.all(np.diff(t) >= -2 * np.spacing(1.0)) and t[-1] <= math.pi / (2 * math.sqrt(2))
+    assert t[-1] == pytest.approx(math.pi / (2 * math.sqrt(2)), rel=1e-6)
 
 
 def test_forbes_approximations():
@@ -133,6 +210,21 @@ def test_image_force_current():
     assert forbes == pytest.approx(expected, rel=0.1)
     with pytest.raises(ValueError, match="vanishes"):
         fowler_nordheim_image_current(1000.0, 3.2, 0.42, 2.13)
+
+
+def test_image_force_current_vectorised_against_quadrature():
+    # J = A F^2 / t^2 exp(-v B / F) (physics-data Sec. 6 item 4) with v, t by quadrature of
+    # their definitions (Murphy & Good 1956), at 60 fields in one call: the exponent v B / F
+    # reaches ~40 here, so 1e-12 in v is ~4e-11 in J
+    F = np.linspace(3.0, 20.0, 60)
+    c = fowler_nordheim_constants(3.2, 0.42)
+    f = scaled_barrier_field(F, 3.2, 2.13)
+    vt = np.array([quadrature_v_t(x) for x in f])
+    expected = c.a_A_V2 * (F * 1e6) ** 2 / vt[:, 1] ** 2 * np.exp(-vt[:, 0] * c.b_MV_cm / F)
+    got = fowler_nordheim_image_current(F, 3.2, 0.42, 2.13)
+    assert got.shape == F.shape
+    assert_allclose(got, expected, rtol=1e-10)
+    assert_allclose(fowler_nordheim_image_current(F.reshape(6, 10), 3.2, 0.42, 2.13), got.reshape(6, 10), rtol=0)
 
 
 def test_trapezoid_form_reduces_to_fn():
