@@ -16,6 +16,10 @@ def run(args) -> int:
     from solver.stack import summarize
 
     case = load_case(args.case)
+    if case.study is not None:
+        from solver.study import plan_study
+
+        plan_study(case)  # the computation name and outputs are checked against the registry
     s = summarize(case)
     ch = case.channel
     cyl = case.geometry.kind == "cylindrical"

@@ -37,7 +37,7 @@ from solver.materials import Dielectric, MaterialLibrary, Metal, Semiconductor, 
 from solver.units import SIO2_PERMITTIVITY_FOR_EOT
 
 MAX_DOPING_CM3 = 1e22
-STUDY_COMPUTES = ("bands", "current", "stack")
+STUDY_COMPUTES = ("bands", "current", "stack")   # the built-in ones (solver.study)
 
 
 def _hint(name, options) -> str:
@@ -552,7 +552,12 @@ def _parse_bias(t) -> Bias:
 def _parse_study(t, case: Case) -> Study:
     _check_keys(t, STUDY_KEYS, "study")
     mode = _string(t, "mode", "study", default="grid", choices=("grid", "zip"))
-    compute = _string(t, "compute", "study", default="bands", choices=STUDY_COMPUTES)
+    # the computation is looked up in solver.study's registry when the study is planned
+    # (plugins can add names); only its form is checked here
+    compute = _string(t, "compute", "study", default="bands")
+    if not compute.strip():
+        raise CaseError(f"study.compute: expected a computation name such as {', '.join(map(repr, STUDY_COMPUTES))}, "
+                        "got ''")
     keep = t.get("keep_profiles", False)
     if not isinstance(keep, bool):
         raise CaseError(f"study.keep_profiles: expected true or false, got {_fmt(keep)}")

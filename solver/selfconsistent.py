@@ -726,3 +726,24 @@ def _psi2_normalisation(s, nodes, psi2):
     integral = np.trapezoid(psi2, x, axis=0)
     with np.errstate(divide="ignore"):
         return np.where(integral > 0, 1.0 / integral, 0.0)
+
+
+_WARM_UP_CASE = """
+[gate]
+material = "Al"
+[[layers]]
+material = "SiO2"
+thickness_nm = 3.0
+[channel]
+acceptors_cm3 = 1e17
+"""
+
+
+def warm_up() -> None:
+    """Compile (or load from numba's cache) the kernels of one quantum solve.
+
+    Called once per worker process by parameter studies, so no study point
+    pays the compilation."""
+    from solver.case import parse_case
+
+    solve(parse_case(_WARM_UP_CASE, source="<warm-up>"), 1.0, quantum=True)

@@ -60,3 +60,11 @@ def test_bad_case_exit_2_one_line_no_traceback(tmp_path):
 def test_missing_file_exit_2(capsys):
     assert main(["check", "no-such-case.toml"]) == 2
     assert "not found" in capsys.readouterr().err
+
+
+def test_check_refuses_unknown_study_computation(tmp_path, capsys):
+    bad = tmp_path / "bad.toml"
+    bad.write_text((CASES / "demo-cell.toml").read_text().replace('compute = "current"', 'compute = "curent"'))
+    assert main(["check", str(bad)]) == 2
+    captured = capsys.readouterr()
+    assert "Did you mean 'current'" in captured.err and captured.out == ""
