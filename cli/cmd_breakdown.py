@@ -4,7 +4,9 @@ Sweeps the field in the injecting layer (or the gate voltage), compares the
 exact Tsu–Esaki current with WKB, Fowler–Nordheim and the trapezoid
 direct-tunneling formula, names the regimes, maps the ratios over injecting-
 layer thickness x field, and writes one HDF5 file with four PNG figures beside
-it and a short table on the terminal.
+it and a short table on the terminal. Planar and cylindrical (gate-all-around)
+cells; in a cylinder every field is the one at the injecting interface and
+the map varies the injecting layer at the case's channel radius.
 """
 from __future__ import annotations
 
@@ -133,7 +135,7 @@ def _groups(curve, spectra, bmap):
     fdim = ("field_MV_cm",)
     g = {
         "field_MV_cm": _data(curve.field_MV_cm, "MV/cm", fdim,
-                             "field magnitude in the injecting layer at the emitter side"),
+                             "field magnitude in the injecting layer at the emitter interface"),
         "gate_V": _data(curve.gate_V, "V", fdim, "gate voltage against the channel bulk"),
         "stack_V": _data(curve.stack_V, "V", fdim, "voltage across the dielectric stack, gate side minus channel side"),
         "injecting_voltage_V": _data(curve.injecting_drop_V, "V", fdim,
@@ -256,8 +258,12 @@ def run(args) -> int:
         "barrier_height_eV": curve.barrier_height_eV, "onset_field_MV_cm": curve.onset_field_MV_cm,
         "temperature_K": curve.temperature_K, "failed_points": curve.failed_points,
         "relaxed_points": curve.relaxed_points, "regimes": ["direct", "fowler-nordheim", "interference", "none"],
+        "geometry": data.geometry,
         "caution": CAUTION,
     }
+    if data.cylindrical:
+        attrs.update(channel_radius_nm=data.channel_radius_nm, core_radius_nm=data.core_radius_nm,
+                     current_area="per area of the emitting surface")
     write_run(h5, case_text=case.text, command=command_line(args, NAME),
               groups=_groups(curve, spectra, bmap), attrs=attrs)
 
@@ -267,6 +273,9 @@ def run(args) -> int:
     carrier = f"{settings.carrier}s from the {settings.emitter}"
     what = (f"{case.title}\n{carrier} through "
             f"{'the stack' if settings.through == 'stack' else 'the ' + data.names[inj] + ' layer'}")
+    if data.cylindrical:
+        what += (f" (cylinder, channel radius {data.channel_radius_nm:g} nm; "
+                 f"field at the {'channel' if settings.emitter == 'channel' else 'gate'} interface)")
     ref = ("Fermi level" if settings.emitter == "gate" and data.gate_kind == "metal" else "band edge")
     transmission_figure(figures["transmission"], energy_eV=spectra.energy_eV, field_MV_cm=spectra.field_MV_cm,
                         transmission_exact=spectra.transmission_exact,
@@ -297,6 +306,11 @@ def run(args) -> int:
                f"{', image force' if settings.image_force else ''}; injecting layer '{data.names[inj]}' "
                f"{curve.injecting_thickness_nm:g} nm, barrier height {curve.barrier_height_eV:.3f} eV, "
                f"tunneling mass {curve.injecting_mass:g} m0, T = {curve.temperature_K:g} K")
+    if data.cylindrical:
+        core = (f"hollow, core radius {data.core_radius_nm:g} nm" if data.core_radius_nm > 0 else "solid")
+        info(args, f"cylindrical cell: channel radius {data.channel_radius_nm:g} nm ({core}); fields at the "
+                   f"injecting interface (radius {data.radii_nm[-1 if settings.emitter == 'channel' else 0]:g} nm), "
+                   "currents per area of the emitting surface")
     info(args, "")
     info(args, table(_summary_rows(curve),
                      ["F_MV_cm", "gate_V", "V_layer", "J_exact", "J_WKB", "J_FN", "exact/WKB", "exact/FN",

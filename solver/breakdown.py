@@ -32,10 +32,18 @@ Regimes (per bias point; "injecting layer" = the dielectric at the emitter):
 The reference energy of the emitter is its Fermi level for a metal gate and its
 band edge for a semiconductor (the barrier height is then the band offset).
 
-The electrostatics behind the bias points is the planar stack builder's
-(displacement continuity, sheet charges, classical channel surface charge);
-results are estimates for comparing the approximations, not a device
-qualification.
+The electrostatics behind the bias points is the stack builder's
+(`solver.tunneling.stack`: displacement continuity, sheet charges, classical
+channel surface charge), planar or coaxial. In a cylindrical (gate-all-around)
+cell the field goes as 1/r inside each layer; the field of the FN and
+trapezoid forms and of every "field" axis is the one at the injecting
+interface (the channel-side edge of the tunnel layer for channel emission, the
+gate-side edge of the blocking layer for gate emission), the exact and WKB
+currents use the full ln r profile (linear pieces, 1-D transmission along the
+radius, planar Tsu–Esaki supply; see tunneling.stack), and the thickness map
+varies the injecting layer at the fixed channel radius. Currents are per area
+of the emitting surface. Results are estimates for comparing the
+approximations, not a device qualification.
 """
 from __future__ import annotations
 
@@ -85,6 +93,9 @@ class BreakdownSettings:
     image_force : image-force lowering of the profile (staircase) and in the FN form
     emitter_mass : emitting lead's mass, m0 (None: the material's default)
     rtol : relative accuracy of the Tsu–Esaki energy integrals
+    curvature_tol_eV : cylinders: chord tolerance of the linear pieces of the
+        ln r profile (None: 3 eV x rtol, at most 1e-3 eV, which keeps the piece
+        error of J at or below rtol; see tunneling.stack)
     """
 
     carrier: str = "electron"
@@ -93,6 +104,7 @@ class BreakdownSettings:
     image_force: bool = False
     emitter_mass: float | None = None
     rtol: float = 1e-4
+    curvature_tol_eV: float | None = None
 
     def __post_init__(self):
         for name, allowed in (("carrier", CARRIERS), ("emitter", EMITTERS), ("through", THROUGH)):
@@ -103,6 +115,12 @@ class BreakdownSettings:
             raise ValueError(f"rtol must be in [1e-8, 0.1], got {self.rtol!r}")
         if self.emitter_mass is not None and not self.emitter_mass > 0:
             raise ValueError(f"emitter_mass must be > 0 (units of m0), got {self.emitter_mass!r}")
+        if self.curvature_tol_eV is not None and not (0 < self.curvature_tol_eV <= 0.1):
+            raise ValueError(f"curvature_tol_eV must be in (0, 0.1] eV, got {self.curvature_tol_eV!r}")
+
+    @property
+    def piece_tolerance_eV(self) -> float:
+        return self.curvature_tol_eV if self.curvature_tol_eV is not None else min(3.0 * self.rtol, 1e-3)
 
     @property
     def injecting_layer_side(self) -> str:
@@ -128,13 +146,12 @@ def _state_for_field(data: StackData, settings: BreakdownSettings, field_MV_cm: 
 def _barrier_at(data, settings, state):
     return stack_barrier(data, state, carrier=settings.carrier, emitter=settings.emitter,
                          through=settings.through, image_force=settings.image_force,
-                         emitter_mass=settings.emitter_mass)
+                         emitter_mass=settings.emitter_mass, curvature_tol_eV=settings.piece_tolerance_eV)
 
 
 def _emits(data, settings, state) -> bool:
     sign = emission_sign(settings.carrier, settings.emitter)
-    k = 0 if settings.emitter == "gate" else len(state.segment_field_MV_cm) - 1
-    return sign * state.segment_field_MV_cm[k] > 0.0
+    return sign * state.interface_field_MV_cm(settings.emitter) > 0.0
 
 
 def _tsu_esaki(sb, model: str, rtol: float) -> float:
@@ -323,7 +340,7 @@ def breakdown_curve(case, *, field_MV_cm: Sequence[float] | None = None,
     inter[order] = interference_mask(fld[order], exact[order], wkb[order], (regime == "fowler-nordheim")[order])
     regime[inter] = "interference"
     if field_MV_cm is None:
-        fld = np.array([abs(s.segment_field_MV_cm[0 if settings.emitter == "gate" else -1]) for s in states])
+        fld = np.array([abs(s.interface_field_MV_cm(settings.emitter)) for s in states])
     return BreakdownCurve(
         settings=settings, layer_names=data.names, injecting_layer=inj,
         injecting_thickness_nm=data.thickness_nm[inj], injecting_mass=probe.injecting_mass,
