@@ -56,6 +56,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from solver.materials import Valley
 from solver.units import (
     BOLTZMANN_EV_K,
     EPSILON0_F_M,
@@ -86,16 +87,8 @@ QUANTUM_GROWTH = 1.05  # growth cap in the channel's quantum region (inversion/a
 
 
 # ------------------------------------------------------------------ inputs (SI)
-@dataclass(frozen=True)
-class ValleySpec:
-    """One set of equivalent band extrema for quantization (masses in m0)."""
-
-    label: str
-    degeneracy: int
-    quantization_mass: float
-    dos_mass: float
-    offset_eV: float = 0.0
-
+# one set of equivalent band extrema for quantization (masses in m0): the materials record
+ValleySpec = Valley
 
 @dataclass(frozen=True)
 class DielectricSpec:
