@@ -1,4 +1,6 @@
 """Exact vs WKB vs Fowler–Nordheim along sweeps and maps of a case's stack."""
+from dataclasses import replace
+
 import numpy as np
 import pytest
 from numpy.testing import assert_allclose
@@ -134,3 +136,64 @@ def test_bad_settings():
         breakdown_curve(stack_data(load_case("cases/mos-capacitor.toml")))
     with pytest.raises(ValueError, match="field_MV_cm must hold finite values > 0"):
         breakdown_curve(stack_data(load_case("cases/mos-capacitor.toml")), field_MV_cm=[-1.0])
+
+
+@pytest.fixture(scope="module")
+def cylinder():
+    """The shipped gate-all-around demo: W / 6 nm SiO2 / 6 nm Si3N4 / 5 nm SiO2 around a
+    20 nm p-Si shell on a 10 nm SiO2 core."""
+    return stack_data(load_case("cases/demo-cell-cylindrical.toml"))
+
+
+def test_cylinder_fields_at_the_injecting_interface(cylinder):
+    # FN hand formula with the field at the channel surface (the injecting interface);
+    # the FN onset q V_layer = Phi_B with the ln r potential of the tunnel layer,
+    # V_layer = E(r0) r0 ln(1 + t/r0) (physics-data sheet Sec. 5.5): E_onset =
+    # Phi_B / (r0 ln(1 + t/r0)), Phi_B = chi_Si - chi_SiO2 (sheet Sec. 3.1).
+    from solver.tunneling.fowler_nordheim import fowler_nordheim_current
+
+    c = breakdown_curve(cylinder, field_MV_cm=[5.0, 9.0, 13.0])
+    assert_allclose(c.field_MV_cm, [5.0, 9.0, 13.0], rtol=1e-12)
+    assert_allclose(c.layer_fields_MV_cm[:, -1], c.field_MV_cm, rtol=1e-12)
+    height = c.barrier_height_eV
+    assert_allclose(c.current_fn_A_cm2, fowler_nordheim_current(c.field_MV_cm, height, c.injecting_mass),
+                    rtol=1e-12)
+    onset = height / (20.0 * np.log1p(5.0 / 20.0)) * 10.0  # MV/cm
+    assert_allclose(c.onset_field_MV_cm, onset, rtol=1e-9)
+    assert c.regime[0] == "direct" and c.regime[-1] != "direct"
+    assert np.all(c.current_exact_A_cm2 > 0) and c.current_exact_A_cm2[2] > c.current_exact_A_cm2[1]
+    # the same gate voltage drives a stronger field at the channel than in a planar cell
+    flat = replace(cylinder, geometry="planar", channel_radius_nm=np.inf, core_radius_nm=0.0)
+    g = breakdown_curve(flat, gate_V=c.gate_V[1:2])
+    assert g.field_MV_cm[0] < c.field_MV_cm[1]
+    # the map varies the tunnel layer at the fixed channel radius; the onset follows
+    m = breakdown_map(cylinder, [3.0, 7.0], [6.0, 12.0])
+    assert_allclose(m.onset_field_MV_cm, height / (20.0 * np.log1p(np.array([3.0, 7.0]) / 20.0)) * 10.0,
+                    rtol=1e-9)
+    assert np.all(np.isfinite(m.current_exact_A_cm2))
+
+
+def test_cylinder_planar_limit_of_the_curve(mos):
+    # r0 -> infinity reproduces the planar currents (Gauss's law: the coaxial stack
+    # becomes the planar one; physics-data sheet Sec. 5.5, row r0 = infinity).
+    big = replace(mos, geometry="cylindrical", channel_radius_nm=1e5, core_radius_nm=0.0)
+    fields = [4.0, 9.0]
+    for emitter in ("channel", "gate"):
+        a = breakdown_curve(mos, field_MV_cm=fields, emitter=emitter)
+        b = breakdown_curve(big, field_MV_cm=fields, emitter=emitter)
+        assert_allclose(b.current_exact_A_cm2, a.current_exact_A_cm2, rtol=3e-3)
+        assert_allclose(b.current_wkb_A_cm2, a.current_wkb_A_cm2, rtol=3e-3)
+        assert_allclose(b.gate_V, a.gate_V, atol=2e-3)
+        assert b.regime == a.regime
+
+
+def test_cylinder_gate_emission_and_holes(cylinder):
+    # reverse polarity: electrons from the W gate, the field at the gate-side edge of
+    # the blocking layer; holes from the channel need the gate negative as well
+    c = breakdown_curve(cylinder, field_MV_cm=[10.0], emitter="gate")
+    assert c.gate_V[0] < 0 and c.current_exact_A_cm2[0] > 0
+    r_gate = 20.0 + 17.0
+    # the blocking layer's channel-side field is larger by r_gate / (r_gate - 6) (1/r)
+    assert_allclose(-c.layer_fields_MV_cm[0, 0], 10.0 * r_gate / (r_gate - 6.0), rtol=1e-12)
+    h = breakdown_curve(cylinder, gate_V=[-14.0], carrier="hole")
+    assert h.regime[0] != "none" and h.current_exact_A_cm2[0] > 0

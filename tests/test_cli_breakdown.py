@@ -58,3 +58,26 @@ def test_bad_input_is_one_line_exit_2(tmp_path, capsys):
                  "--emitter", "gate", "--gate-from", "2", "--gate-to", "6", "--points", "5", "--no-map"])
     err = capsys.readouterr().err
     assert code == 2 and "no point of the sweep emits" in err
+
+
+def test_cylindrical_cell(tmp_path, capsys):
+    # the gate-all-around demo: store, figures, geometry attributes, the field at the
+    # channel surface (the injecting interface) on the terminal
+    out = tmp_path / "cyl.h5"
+    code = main(["breakdown", "cases/demo-cell-cylindrical.toml", "--output", str(out), *SMALL])
+    assert code == 0
+    text = capsys.readouterr().out
+    assert "cylindrical cell: channel radius 20 nm (hollow, core radius 10 nm)" in text
+    for name in ("current-field", "fowler-nordheim", "transmission", "ratio-map"):
+        png = tmp_path / f"cyl-{name}.png"
+        assert png.stat().st_size > 10_000 and png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    run = read_run(out)
+    attrs = run["attrs"]
+    assert attrs["geometry"] == "cylindrical" and attrs["channel_radius_nm"] == 20.0
+    assert attrs["core_radius_nm"] == 10.0
+    bd = run["groups"]["breakdown"]
+    field = np.asarray(bd["field_MV_cm"].values)
+    layer_field = np.asarray(bd["layer_field_MV_cm"].values)
+    np.testing.assert_allclose(layer_field[:, -1], field, rtol=1e-12)
+    assert np.all(np.isfinite(np.asarray(bd["current_exact_A_cm2"].values)))
+    assert np.asarray(run["groups"]["map"]["current_exact_A_cm2"].values).shape == (3, 4)

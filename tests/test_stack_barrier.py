@@ -278,3 +278,192 @@ def test_state_from_solution_reproduces_the_closed_form():
     assert_allclose(a.u_end_eV, b.u_end_eV, atol=3e-3)
     assert_allclose(a.left[0], b.left[0], atol=3e-3)
     assert_allclose(a.right[0], b.right[0], atol=1e-9)
+
+
+# ------------------------------------------------------------ cylindrical (coaxial) stacks
+
+def make_coax(r0, core=0.0, **over):
+    """The stand-in stack around a channel of radius r0 (nm): layers gate first,
+    so the last (5 nm, eps 3.9) is the tunnel layer at r0 .. r0 + 5 nm."""
+    return make_stack(geometry="cylindrical", channel_radius_nm=r0, core_radius_nm=core, **over)
+
+
+@pytest.mark.parametrize("r0, tunnel, block", [(10, 24.05, 8.91), (20, 19.53, 10.56),
+                                               (30, 17.87, 11.41), (50, 16.46, 12.29)])
+def test_coaxial_fields_match_the_sheet_table(r0, tunnel, block):
+    # Physics-data sheet Sec. 5.5 (Gauss's law, Jackson): 5 nm SiO2 / 6 nm SiN (7.5) /
+    # 6 nm SiO2 at 20 V, E_i(r) = V / [eps_i r sum_j ln(r_{j+1}/r_j)/eps_j]; the table's
+    # tunnel field at r0 and blocking field at the gate radius r_N (4 digits).
+    layers, _, e_in, d_in = stack_fields((6.0, 6.0, 5.0), (3.9, 7.5, 3.9), (0, 0, 0), (0.5,) * 3, 20.0,
+                                         channel_radius_nm=r0)
+    assert_allclose(e_in[2] * 1e-8, tunnel, atol=5e-3)
+    data = make_coax(r0)
+    st = stack_state(data, stack_V=20.0)
+    assert_allclose(st.interface_field_MV_cm("channel"), tunnel, atol=5e-3)
+    assert_allclose(st.interface_field_MV_cm("gate"), block, atol=5e-3)
+    assert_allclose(st.segment_radius_nm, [r0 + 17, r0 + 11, r0 + 5, r0], rtol=1e-14)
+    # r D is constant without sheets (Gauss's law) and the layer voltages add up to V
+    r_in = np.array([r0 + 11, r0 + 5, r0])
+    assert_allclose(np.asarray(d_in) * r_in, d_in[-1] * r0, rtol=1e-13)
+    assert_allclose(st.vacuum_level_eV[-1] - st.vacuum_level_eV[0], 20.0, rtol=1e-13)
+    # field magnitude at the gate-side edge of the tunnel layer: 1/r (Jackson)
+    assert_allclose(st.segment_field_gate_side_MV_cm[2], tunnel * r0 / (r0 + 5), atol=5e-3)
+    # fixing the field at the injecting interface gives the same state
+    by_field = stack_state(data, field_MV_cm=st.interface_field_MV_cm("gate"), field_layer=0,
+                           field_side="gate")
+    assert_allclose(by_field.stack_V, 20.0, rtol=1e-12)
+
+
+@pytest.mark.parametrize("r0, shift", [(10, 0.277), (20, 0.299), (30, 0.310), (50, 0.323)])
+def test_coaxial_sheet_threshold_shift(r0, shift):
+    # Physics-data sheet Sec. 6 item 13 and Sec. 7: Delta V_T = (sigma r_c / eps0)
+    # sum_{r_c -> r_g} ln(r_{i+1}/r_i) / eps_i per 1e12 e/cm^2 at mid-SiN of the Sec. 5.5
+    # stack: +0.277 / 0.299 / 0.310 / 0.323 V. Same channel state, more gate voltage.
+    clean = make_coax(r0)
+    charged = make_coax(r0, charge_cm2=(0.0, -1e12, 0.0))
+    a = stack_state(clean, field_MV_cm=8.0, field_layer=-1)
+    b = stack_state(charged, field_MV_cm=8.0, field_layer=-1)
+    assert_allclose(b.surface_potential_V, a.surface_potential_V, atol=1e-12)
+    assert_allclose(b.gate_V - a.gate_V, shift, atol=5e-4)
+    # the jump of r D at the sheet is sigma r_c (Gauss's law, charge per length sigma 2 pi r_c)
+    _, _, _, d = stack_fields((6.0, 6.0, 5.0), (3.9, 7.5, 3.9), (0, -1e12, 0), (0.5,) * 3, 0.0,
+                              channel_radius_nm=r0)
+    r_c = r0 + 5 + 3
+    r_in = np.array([r0 + 11, r_c, r0 + 5, r0])
+    rd = np.asarray(d) * r_in
+    assert_allclose(rd[2] - rd[1], -1e12 * 1e4 * Q * r_c, rtol=1e-12)
+
+
+def test_planar_limit_of_the_coaxial_stack():
+    # r0 -> infinity: ln(1 + t/r) r -> t, the coaxial formulas become the planar ones
+    # (physics-data sheet Sec. 5.5, row r0 = infinity); so do the channel-shell
+    # potential (Sze & Ng 2007 Sec. 4.2 closed form), the barrier and the current.
+    from solver.tunneling.current import current_density
+
+    r0 = 1e5  # nm; t / r0 ~ 1e-4
+    flat, coax = make_stack(), make_coax(r0)
+    for field in (4.0, 10.0):
+        a = stack_state(flat, field_MV_cm=field, field_layer=-1)
+        b = stack_state(coax, field_MV_cm=field, field_layer=-1)
+        assert_allclose(b.layer_fields_MV_cm, a.layer_fields_MV_cm, rtol=3e-4)
+        assert_allclose(b.surface_potential_V, a.surface_potential_V, atol=2e-4)
+        pa, pb = stack_barrier(flat, a), stack_barrier(coax, b)
+        assert pb.barrier.thickness_nm == pytest.approx(pa.barrier.thickness_nm, rel=1e-12)
+        assert_allclose(pb.barrier.u_start_eV, pa.barrier.u_start_eV, atol=2e-3)
+        assert_allclose(pb.barrier.u_end_eV, pa.barrier.u_end_eV, atol=2e-3)
+        j = [current_density(s.barrier, s.fermi_left_eV, s.fermi_right_eV, 300.0) for s in (pa, pb)]
+        assert_allclose(j[1], j[0], rtol=3e-3)
+    # the shell's classical charge against the planar closed form, depletion to strong inversion
+    for psi in (-0.15, 0.3, 0.9, 1.1):
+        q_s = float(surface_charge_C_m2(flat, psi))
+        from solver.tunneling.stack import shell_potential
+
+        assert_allclose(shell_potential(coax, q_s)[1][-1], psi, atol=2e-4)
+
+
+def test_coaxial_pieces_converge():
+    # Linear Airy pieces of the ln r profile (Gundlach 1966 per piece): the current
+    # converges as the chord tolerance shrinks; the default is within ~1e-4 of a
+    # 10x finer cut (reference: 2e-5 eV, ~10x the pieces). Channel emission at
+    # r0 = 10 nm, direct tunneling and Fowler–Nordheim fields; gate emission too.
+    from solver.tunneling.current import current_density
+
+    data = make_coax(10.0)
+    for emitter, field in (("channel", 6.0), ("channel", 14.0), ("gate", -12.0)):
+        st = stack_state(data, field_MV_cm=field, field_layer=-1 if emitter == "channel" else 0,
+                         field_side=emitter)
+        j = {}
+        for tol in (2e-5, 3e-4, 1e-1):
+            sb = stack_barrier(data, st, emitter=emitter, curvature_tol_eV=tol)
+            j[tol] = current_density(sb.barrier, sb.fermi_left_eV, sb.fermi_right_eV, 300.0, rtol=1e-7)
+        err_default = abs(j[3e-4] / j[2e-5] - 1)
+        err_coarse = abs(j[1e-1] / j[2e-5] - 1)
+        assert err_default < 2.5e-4, (emitter, field, err_default)
+        assert err_coarse > 10 * err_default
+
+
+def test_coaxial_barrier_heights_drops_and_fields():
+    # Channel emission at r0 = 10 nm: the barrier at the channel is the conduction band
+    # offset (electron-affinity rule, physics-data sheet Sec. 3.1), the fall across the
+    # tunnel layer is E(r0) r0 ln(1 + t/r0) (ln r potential, Sec. 5.5), the reported
+    # field is the one at the injecting interface.
+    data = make_coax(10.0)
+    st = stack_state(data, field_MV_cm=12.0, field_layer=-1)
+    sb = stack_barrier(data, st)
+    assert_allclose(sb.barrier_height_eV, 4.05 - 0.9, rtol=1e-12)
+    assert_allclose(sb.injecting_field_MV_cm, 12.0, rtol=1e-12)
+    assert_allclose(sb.injecting_drop_eV, 12.0 * 0.1 * 10.0 * math.log(1.5), rtol=1e-12)
+    b = sb.barrier
+    assert_allclose(sum(b.thickness_nm), 17.0, rtol=1e-13)
+    assert len(b.thickness_nm) > 3  # the ln r layers are cut into pieces
+    # the band falls steepest at the channel (1/r): first piece slope ~ the field there
+    slope = (b.u_start_eV[0] - b.u_end_eV[0]) / b.thickness_nm[0]
+    assert_allclose(slope, 1.2, rtol=0.05)
+    g = stack_barrier(data, stack_state(data, field_MV_cm=-12.0, field_layer=0, field_side="gate"),
+                      emitter="gate")
+    assert_allclose(g.injecting_field_MV_cm, 12.0, rtol=1e-12)
+    assert_allclose(g.barrier_height_eV, 4.4 - 0.9, rtol=1e-12)
+    with pytest.raises(ValueError, match="the state is planar"):
+        stack_barrier(data, stack_state(make_stack(), stack_V=3.0))
+
+
+def _solid_variant(case):
+    from solver.case import parse_case
+
+    text = case.text.replace("core_radius_nm = 10.0", "").replace('core_material = "SiO2"', "")
+    return parse_case(text.replace("channel_radius_nm = 20.0", "channel_radius_nm = 12.0"))
+
+
+def test_cylinder_channel_matches_classical_poisson_solve():
+    # The classical shell (Boltzmann, complete ionization) against the finite-volume
+    # Poisson solve of the whole cell with the same model: fields at the channel-side
+    # edge of every layer and the band bending agree to the mesh error; hollow
+    # (demo) and solid channels, accumulation to strong inversion.
+    from solver import solve
+    from solver.case import load_case
+
+    hollow = load_case("cases/demo-cell-cylindrical.toml")
+    for case, gates in ((hollow, (-6.0, 0.5, 12.0)), (_solid_variant(hollow), (-3.0, 9.0))):
+        data = stack_data(case)
+        for gate_V in gates:
+            sol = solve(case, gate_V, quantum=False, statistics="boltzmann")
+            mine = stack_state(data, gate_V=gate_V)
+            assert_allclose(mine.layer_fields_MV_cm, sol.layer_fields_MV_cm, rtol=2e-4)
+            assert_allclose(mine.surface_potential_V, sol.surface_potential_V, atol=1e-3)
+    # with the solver's default (Fermi–Dirac) statistics the classical estimate stays
+    # close below strong inversion, where the carriers are non-degenerate
+    sol = solve(hollow, 2.0, quantum=False)
+    mine = stack_state(stack_data(hollow), gate_V=2.0)
+    assert_allclose(mine.layer_fields_MV_cm, sol.layer_fields_MV_cm, rtol=5e-3)
+
+
+def test_state_from_cylindrical_solution():
+    # A classical Boltzmann solve of the cylinder gives the same barrier as the
+    # closed-form coaxial state (band edges to the mesh error).
+    from solver import solve
+    from solver.case import load_case
+    from solver.tunneling.stack import state_from_solution
+
+    case = load_case("cases/demo-cell-cylindrical.toml")
+    data = stack_data(case)
+    sol = solve(case, 14.0, quantum=False, statistics="boltzmann")
+    st = state_from_solution(data, sol)
+    assert st.cylindrical
+    a = stack_barrier(data, st).barrier
+    b = stack_barrier(data, stack_state(data, gate_V=14.0)).barrier
+    assert len(a.thickness_nm) == len(b.thickness_nm)
+    assert_allclose(a.u_start_eV, b.u_start_eV, atol=3e-3)
+    assert_allclose(a.u_end_eV, b.u_end_eV, atol=3e-3)
+    assert_allclose(a.left[0], b.left[0], atol=3e-3)
+    with pytest.raises(ValueError, match="the solution is cylindrical"):
+        state_from_solution(make_stack(), sol)
+
+
+def test_coaxial_inputs_are_checked():
+    with pytest.raises(ValueError, match="core_radius_nm must lie in"):
+        make_coax(10.0, core=10.0)
+    with pytest.raises(ValueError, match="channel_radius_nm must be a finite number > 0"):
+        make_coax(math.inf)
+    with pytest.raises(ValueError, match="curvature_tol_eV"):
+        data = make_coax(10.0)
+        stack_barrier(data, stack_state(data, stack_V=5.0), curvature_tol_eV=0.0)

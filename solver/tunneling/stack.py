@@ -59,8 +59,12 @@ zero flux at r_core and the flux r_0 Q_s at the surface, finite volumes on a
 mesh graded toward the surface (0.002 nm there), Newton with a numba kernel.
 It is exact for the model (thin shells fully deplete, which the planar
 relation cannot describe) and agrees with the classical Boltzmann solve of
-`solver.solve` to its mesh error (tests/test_stack_barrier.py). Q_s is per
-area of the channel surface.
+`solver.solve` to its mesh error (2e-5 in the layer fields on the demo cell;
+tests/test_stack_barrier.py). Q_s is per area of the channel surface. Like the
+planar relation it is non-degenerate: in strong inversion the Fermi–Dirac
+solve puts the surface potential higher (by ~0.1 V at 12 V on the demo
+cylinder, layer fields within 1 %); where that matters, build the state from
+a solution (`state_from_solution`).
 
 Orientation of the Barrier
 --------------------------
