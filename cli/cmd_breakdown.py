@@ -273,9 +273,11 @@ def run(args) -> int:
     carrier = f"{settings.carrier}s from the {settings.emitter}"
     what = (f"{case.title}\n{carrier} through "
             f"{'the stack' if settings.through == 'stack' else 'the ' + data.names[inj] + ' layer'}")
+    field_label = "field in the injecting layer (MV/cm)"
     if data.cylindrical:
-        what += (f" (cylinder, channel radius {data.channel_radius_nm:g} nm; "
-                 f"field at the {'channel' if settings.emitter == 'channel' else 'gate'} interface)")
+        what += f", cylinder r0 = {data.channel_radius_nm:g} nm"
+        side = "channel" if settings.emitter == "channel" else "gate"
+        field_label = f"field in the injecting layer at the {side} interface (MV/cm)"
     ref = ("Fermi level" if settings.emitter == "gate" and data.gate_kind == "metal" else "band edge")
     transmission_figure(figures["transmission"], energy_eV=spectra.energy_eV, field_MV_cm=spectra.field_MV_cm,
                         transmission_exact=spectra.transmission_exact,
@@ -288,7 +290,7 @@ def run(args) -> int:
                          current_wkb_A_cm2=curve.current_wkb_A_cm2, current_fn_A_cm2=curve.current_fn_A_cm2,
                          current_trapezoid_A_cm2=curve.current_trapezoid_A_cm2, regime=curve.regime,
                          onset_field_MV_cm=curve.onset_field_MV_cm, gate_V=curve.gate_V,
-                         title=f"Current density vs field: {what}")
+                         title=f"Current density vs field: {what}", field_label=field_label)
     fowler_nordheim_figure(figures["fowler_nordheim"], field_MV_cm=curve.field_MV_cm,
                            current_exact_A_cm2=curve.current_exact_A_cm2,
                            current_wkb_A_cm2=curve.current_wkb_A_cm2, current_fn_A_cm2=curve.current_fn_A_cm2,
@@ -298,7 +300,8 @@ def run(args) -> int:
         ratio_map_figure(figures["ratio_map"], thickness_nm=bmap.thickness_nm, field_MV_cm=bmap.field_MV_cm,
                          ratios={k: bmap.ratio(k) for k in ("wkb", "fn", "trapezoid")},
                          onset_field_MV_cm=bmap.onset_field_MV_cm,
-                         layer_label=f"{bmap.layer_name} layer", title=f"Within a factor 2 of exact? {what}".replace("\n", ": "))
+                         layer_label=f"{bmap.layer_name} layer", field_label=field_label,
+                         title=f"Within a factor 2 of exact? {what}".replace("\n", ": "))
         written.append(figures["ratio_map"])
 
     info(args, f"{case.title}  [{case.source}]")

@@ -111,7 +111,8 @@ def _shade_regimes(ax, field, regime, label=True):
 
 def current_field_figure(path, *, field_MV_cm, current_exact_A_cm2, current_wkb_A_cm2,
                          current_fn_A_cm2, current_trapezoid_A_cm2=None, regime=None,
-                         onset_field_MV_cm=None, gate_V=None, title="") -> str:
+                         onset_field_MV_cm=None, gate_V=None, title="",
+                         field_label="field in the injecting layer (MV/cm)") -> str:
     """J–F (log J) with all approximations, regimes shaded, ratios J_exact/J_approx below."""
     f = np.asarray(field_MV_cm, float)
     curves = {"exact": current_exact_A_cm2, "wkb": current_wkb_A_cm2, "fn": current_fn_A_cm2}
@@ -157,7 +158,7 @@ def current_field_figure(path, *, field_MV_cm, current_exact_A_cm2, current_wkb_
         span = min(max(abs(math.log10(rr.min())), abs(math.log10(rr.max())), 1.0), 4.0)
         axr.set_ylim(10 ** -span, 10 ** span)
     axr.set_ylabel("J_exact / J_approx\n(clipped at 10^±4)", fontsize=9)
-    axr.set_xlabel("field in the injecting layer (MV/cm)")
+    axr.set_xlabel(field_label)
     axr.grid(True, which="major", alpha=0.3)
     axr.legend(fontsize=7.5, loc="lower right")
     if gate_V is not None:
@@ -203,7 +204,8 @@ def fowler_nordheim_figure(path, *, field_MV_cm, current_exact_A_cm2, current_wk
 
 
 def ratio_map_figure(path, *, thickness_nm, field_MV_cm, ratios, onset_field_MV_cm=None,
-                     layer_label="injecting layer", title="") -> str:
+                     layer_label="injecting layer", title="",
+                     field_label="field in the injecting layer (MV/cm)") -> str:
     """log10(J_exact/J_approx) over thickness x field, one panel per approximation.
 
     ratios : {"wkb": array (thicknesses, fields), "fn": ..., ...}; the black
@@ -238,7 +240,7 @@ def ratio_map_figure(path, *, thickness_nm, field_MV_cm, ratios, onset_field_MV_
         ax.set_title(f"exact / {_NAMES[key].split(' (')[0]}\nhatched: within ×2 ({100 * frac:.0f} % of the map)",
                      fontsize=9.5)
         ax.set_xlabel(f"{layer_label} thickness (nm)")
-    axes[0].set_ylabel("field in the injecting layer (MV/cm)")
+    axes[0].set_ylabel(field_label)
     cb = fig.colorbar(mesh, ax=list(axes), shrink=0.9)
     cb.set_label("log10(J_exact / J_approx)  (clipped at ±3)")
     if title:
