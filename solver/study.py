@@ -853,7 +853,7 @@ def _warm_current() -> None:
 
 def current_point(case) -> dict:
     """Electron tunneling current emitted by the channel at the point's
-    bias.gate_V (planar stack electrostatics of solver.tunneling.stack, exact
+    bias.gate_V (stack electrostatics of solver.tunneling.stack, planar or coaxial, exact
     transmission, Tsu–Esaki): through the whole stack, and through the
     injecting (channel-side) layer alone into the next layer's band."""
     from solver.tunneling import current_density
@@ -893,5 +893,5 @@ register_computation(
     },
     warm_up=_warm_current,
     sizes=_layer_sizes,
-    description="tunneling current from the channel at bias.gate_V (planar stack electrostatics)",
+    description="tunneling current from the channel at bias.gate_V (stack electrostatics, planar or coaxial)",
 )
