@@ -288,7 +288,7 @@ class CellSettings:
     rtol: float = 1e-6
     current_rtol: float = 1e-4
     trap_spread_eV: float = 0.0
-    spread_points: int = 15
+    spread_points: int = 31
     poole_frenkel: bool = False
     holes: bool = True
     gate_injection: bool = True
