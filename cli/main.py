@@ -97,6 +97,17 @@ def main(argv=None) -> int:
     except OSError as err:
         print(f"error: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except ValueError as err:  # a library function refusing an argument the command passed on
+        if os.environ.get("TUNNELSTACK_TRACEBACK"):
+            raise
+        print(f"error: {err}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except Exception as err:  # a defect, not bad input: say so in one line, traceback on request
+        if os.environ.get("TUNNELSTACK_TRACEBACK"):
+            raise
+        print(f"internal error ({type(err).__name__}: {err}); please report it with the case file. "
+              "Set TUNNELSTACK_TRACEBACK=1 to see the traceback.", file=sys.stderr)
+        return EXIT_FAILED
 
 
 if __name__ == "__main__":
