@@ -175,8 +175,8 @@ def run(args) -> int:
     import time
 
     from solver.case import load_case
-    from solver.cell import (CAUTION, SECONDS_PER_YEAR, CellSettings, design_window, ispp,
-                             prepare_cell)
+    from solver.cell import (BREAKDOWN_FIELD_MV_CM, CAUTION, SECONDS_PER_YEAR, CellSettings, design_window,
+                             ispp, prepare_cell)
     from solver.store import write_run
 
     t_start = time.perf_counter()
@@ -256,6 +256,9 @@ def run(args) -> int:
                f"slope {steps.slope_V_per_V:.3f} V/V over the last {steps.fit_steps} steps")
     info(args, f"largest fields: tunnel {s.max_tunnel_field_MV_cm:.1f} MV/cm, blocking "
                f"{s.max_blocking_field_MV_cm:.1f} MV/cm (ISPP tunnel {np.max(np.abs(steps.max_tunnel_field_MV_cm)):.1f})")
+    if max(s.max_tunnel_field_MV_cm, s.max_blocking_field_MV_cm) > BREAKDOWN_FIELD_MV_CM:
+        info(args, f"note: the fields exceed {BREAKDOWN_FIELD_MV_CM:g} MV/cm, beyond dielectric breakdown of "
+                   "thin oxides (common practice); lower --program-V / --erase-V for this cell")
     if s.trap_fill_fraction is not None and s.trap_fill_fraction > 0.3:
         info(args, f"note: the programmed charge is {100 * s.trap_fill_fraction:.0f} % of the trap sheet "
                    "capacity N_T t; trap filling is not modelled, so the programmed V_T is an upper estimate")

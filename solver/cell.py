@@ -56,11 +56,15 @@ Charge balance (all fluxes as current densities, magnitudes in A/cm^2)
 8. J_tc, J_tg: trap-to-band tunneling of trapped electrons from the trap
    level E_c(sheet) - E_T through the rest of the trap layer and the tunnel
    (blocking) layer into the channel conduction band (the gate), rate
-   nu exp(-2 int kappa dx) per electron (WKB at the trap energy, attempt
-   frequency nu of the material; `tunneling.wkb.wkb_exponent`), times the
-   empty fraction of the collecting states (Fermi–Dirac at the case
-   temperature); zero where the trap level faces the channel's gap. This is
-   the "J_out" of program (toward the gate) and an erase/retention loss
+   nu exp(-2 int kappa dx) per electron (WKB at the trap energy over the
+   forbidden parts, attempt frequency nu of the material;
+   `tunneling.wkb.wkb_exponent`), times the empty fraction of the collecting
+   states (Fermi–Dirac at the case temperature); zero where the trap level
+   faces the channel's gap. Only the direct path counts: where the field
+   tilts the trap layer's own conduction band below the trap level before
+   the layer's face, the electron is emitted into that band and captured
+   again (assumption 5), no net loss, and the rate is set to 0. This is the
+   "J_out" of program (toward the gate) and a loss in erase and retention
    (toward the channel). A sheet at mid-layer keeps it small: the rest of
    the trap layer is part of the barrier.
 9. J_th: thermal emission of trapped electrons at rate nu exp(-E_T/kT)
@@ -97,6 +101,9 @@ balance) over ln t with rtol 1e-6. A transient starts at t = 1e-15 s: the
 charge any current below 1e4 A/cm^2 moves before that is < 1e8 q/cm^2 (0.1 mV).
 An operation whose fields leave the table raises CaseError naming the
 voltage (the table limit is far above dielectric breakdown, ~15-20 MV/cm).
+The exact current oscillates slightly with the field above the
+Fowler–Nordheim onset (interference in the tunnel layer, collected in the
+trap layer's band); V_T(t) shows it as faint changes of slope.
 
 Arrhenius acceleration (JESD218 bake equivalences, physics-data Sec. 5.4):
 AF = exp[(E_a/k)(1/T_use - 1/T_bake)].
@@ -119,6 +126,7 @@ from solver.units import BOLTZMANN_EV_K, EPSILON0_F_M, NM_TO_M, PER_CM2_TO_PER_M
 __all__ = [
     "CAUTION",
     "SECONDS_PER_YEAR",
+    "BREAKDOWN_FIELD_MV_CM",
     "CellSettings",
     "Cell",
     "CellTransient",
@@ -143,6 +151,9 @@ CAUTION = ("Simulated program/erase speed, retention and endurance are estimates
            "the applicable standards (JEDEC JESD47, JESD22-A117, JESD218) and lab practice, not this tool.")
 
 SECONDS_PER_YEAR = 365.25 * 86400.0  # Julian year
+# Fields above this in a thin SiO2-like layer are beyond intrinsic breakdown (~10-20 MV/cm,
+# common practice, from memory); the command line notes operations that reach it.
+BREAKDOWN_FIELD_MV_CM = 20.0
 START_S = 1e-15  # transients start here (see the module docstring)
 RECOMBINATION_SCALE_CM2 = 1e9  # n_s of item 12
 CHARGE_UNIT_CM2 = 1e12  # the integrator works in units of 1e12 q/cm^2
@@ -366,7 +377,7 @@ class Cell:
     table_field_MV_cm: np.ndarray  # the grid (both signs)
     table_gate_V: np.ndarray  # V_G0(F_t) of the neutral cell on the grid
     blocking_coefficients: tuple[float, float, float]  # F_b = c1 F_t + c2 Q + c0 (MV/cm, Q in q/cm^2)
-    trap_field_coefficients: tuple[float, float, float, float]  # F_trap,ch = a F_t; F_trap,g = b F_b
+    trap_field_coefficients: tuple[float, float]  # trap-layer field next to the sheet: a F_t (channel side), b F_b (gate side)
     tables: dict = field(repr=False)
     trap_tables: dict = field(repr=False)  # side -> (field grid, ln-rate per depth offset)
     depth_offsets_eV: np.ndarray = field(repr=False)
@@ -636,7 +647,7 @@ def prepare_cell(case, settings: CellSettings | None = None) -> Cell:
         neutral_threshold_V=_neutral_threshold_V(data0), shift_V_per_cm2=shift, settings=s,
         table_field_MV_cm=_readonly(grid), table_gate_V=_readonly(gate_V),
         blocking_coefficients=(float(c1), float(c2), float(c0)),
-        trap_field_coefficients=(float(a_ch), float(b_g), 0.0, 0.0),
+        trap_field_coefficients=(float(a_ch), float(b_g)),
         tables=tables, trap_tables=trap_tables, depth_offsets_eV=_readonly(offsets),
         build_seconds=time.perf_counter() - t_start,
     )
