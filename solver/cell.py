@@ -778,7 +778,6 @@ def _integrate(cell: Cell, operation, gate_V, duration_s, start_charge_cm2, temp
     currents = {k: np.empty(times_s.size) for k in FLUX_NAMES}
     for i in range(times_s.size):
         n, p, ne, ft, fb, je, jg, jh, e1, e2, e3 = rates(y[:, i])
-        fe = ne / (ne + ns)
         currents["channel_electrons"][i] = je
         currents["gate_electrons"][i] = jg
         currents["channel_holes"][i] = jh
@@ -786,7 +785,6 @@ def _integrate(cell: Cell, operation, gate_V, duration_s, start_charge_cm2, temp
         currents["trap_to_channel"][i] = float(np.sum(nq * e1))
         currents["trap_to_gate"][i] = float(np.sum(nq * e2))
         currents["thermal_emission"][i] = float(np.sum(nq * e3))
-        del fe
     record = ConvergenceRecord(True, int(sol.nfev), (), f"solve_ivp Radau over ln t, rtol {s.rtol:g}: "
                                f"{sol.message}", "1", {"nfev": int(sol.nfev), "njev": int(sol.njev),
                                                        "nlu": int(sol.nlu)})

@@ -205,6 +205,25 @@ def test_thermal_emission_times(depth, celsius, tau):
     assert C.thermal_emission_time_s(depth, celsius + 273.15, 1e13) == pytest.approx(tau, rel=0.03)
 
 
+def test_poole_frenkel_coefficient():
+    # physics-data Sec. 6 item 14: beta_PF = sqrt(q^3/(pi eps0 eps_inf)) = 4.38e-4 eV (cm/V)^1/2
+    # at eps_inf = 3 (computed there; a textbook quotes 4.40e-4)
+    T, f_V_cm = 300.0, 1e6
+    ratio = (C.thermal_emission_rate_Hz(1.5, T, field_MV_cm=1.0, optical_permittivity=3.0)
+             / C.thermal_emission_rate_Hz(1.5, T))
+    beta = KB_EV * T * math.log(ratio) / math.sqrt(f_V_cm)
+    assert beta == pytest.approx(4.38e-4, rel=2e-3)
+    # eV per sqrt(V/m) from scipy.constants, times sqrt(100 cm/m)
+    assert beta == pytest.approx(math.sqrt(Q / (math.pi * EPS0 * 3.0)) * 10.0, rel=1e-12)
+
+
+def test_poole_frenkel_speeds_up_retention_loss(case, cell, programmed):
+    pf = C.prepare_cell(case, C.CellSettings(poole_frenkel=True))
+    plain = C.retention(cell, 358.15, programmed.final_charge_cm2, duration_s=1e6)
+    lowered = C.retention(pf, 358.15, programmed.final_charge_cm2, duration_s=1e6)
+    assert lowered.final_threshold_V < plain.final_threshold_V
+
+
 def test_retention_single_depth_is_exponential(case):
     # thermal emission alone: Q(t) = Q0 exp(-t/tau), tau from physics-data Sec. 3.4
     s = C.CellSettings(trap_tunneling=False, holes=False, gate_injection=False)
