@@ -115,6 +115,7 @@ JESD218) and lab practice, not this tool.
 from __future__ import annotations
 
 import math
+import numbers
 from dataclasses import dataclass, field, replace
 from types import MappingProxyType
 
@@ -315,9 +316,9 @@ class CellSettings:
             ("trap_spread_eV", self.trap_spread_eV, 0.0, 1.0),
         )
         for name, v, lo, hi in checks:
-            if not (isinstance(v, (int, float)) and math.isfinite(v) and lo <= v <= hi):
+            if not (isinstance(v, numbers.Real) and math.isfinite(v) and lo <= v <= hi):
                 raise _bad(f"cell.{name}: {v!r} is out of range; allowed {lo:g} .. {hi:g}")
-        if not (isinstance(self.spread_points, int) and 1 <= self.spread_points <= 64):
+        if not (isinstance(self.spread_points, numbers.Integral) and 1 <= self.spread_points <= 64):
             raise _bad(f"cell.spread_points: {self.spread_points!r}; allowed an integer 1 .. 64")
 
 
@@ -415,7 +416,8 @@ class Cell:
         return np.where(out <= _LN_FLOOR + 1.0, 0.0, np.exp(out))
 
     def _thermal_rates(self, ft, fb, temperature_K, idx):
-        depths = self.trap_depth_eV + self.depth_offsets_eV[idx]
+        # a node of a wide spread above the band edge is taken as a level at the band edge
+        depths = np.maximum(self.trap_depth_eV + self.depth_offsets_eV[idx], 0.0)
         if self.settings.poole_frenkel and self.optical_permittivity:
             a, b = self.trap_field_coefficients[0], self.trap_field_coefficients[1]
             f = max(abs(a * ft), abs(b * fb))
@@ -706,10 +708,11 @@ def _integrate(cell: Cell, operation, gate_V, duration_s, start_charge_cm2, temp
     from scipy.integrate import solve_ivp
 
     t0 = time.perf_counter()
-    if not (isinstance(duration_s, (int, float)) and math.isfinite(duration_s) and duration_s > 0):
+    if not (isinstance(duration_s, numbers.Real) and math.isfinite(duration_s) and duration_s > 0):
         raise _bad(f"{operation}.pulse_s: {duration_s!r}; allowed a duration > 0 s")
     if not math.isfinite(gate_V):
         raise _bad(f"{operation}.gate_V: {gate_V!r}; allowed a finite voltage")
+    duration_s = float(duration_s)
     if not (math.isfinite(temperature_K) and 1.0 <= temperature_K <= 1000.0):
         raise _bad(f"{operation}.temperature_K: {temperature_K!r}; allowed 1 .. 1000 K")
     q_start = float(start_charge_cm2)
@@ -810,7 +813,7 @@ def program(cell: Cell, gate_V: float, pulse_s: float = 1e-2, *, start_charge_cm
     """V_T(t) during a gate pulse of ``gate_V`` (V) lasting ``pulse_s``, from the
     case's stored charge (or ``start_charge_cm2``). Output times from 1e-9 s (or
     ``times_s``)."""
-    if not (isinstance(gate_V, (int, float)) and gate_V > 0):
+    if not (isinstance(gate_V, numbers.Real) and gate_V > 0):
         raise _bad(f"program.gate_V: {gate_V!r}; a program pulse needs a positive gate voltage")
     return _integrate(cell, "program", float(gate_V), pulse_s, _start(cell, start_charge_cm2),
                       cell.temperature_K if temperature_K is None else float(temperature_K), times_s)
@@ -819,7 +822,7 @@ def program(cell: Cell, gate_V: float, pulse_s: float = 1e-2, *, start_charge_cm
 def erase(cell: Cell, gate_V: float, pulse_s: float = 1e-3, *, start_charge_cm2=None, times_s=None,
           temperature_K=None) -> CellTransient:
     """V_T(t) during an erase pulse (negative ``gate_V``, V) from ``start_charge_cm2``."""
-    if not (isinstance(gate_V, (int, float)) and gate_V < 0):
+    if not (isinstance(gate_V, numbers.Real) and gate_V < 0):
         raise _bad(f"erase.gate_V: {gate_V!r}; an erase pulse needs a negative gate voltage")
     return _integrate(cell, "erase", float(gate_V), pulse_s, _start(cell, start_charge_cm2),
                       cell.temperature_K if temperature_K is None else float(temperature_K), times_s)
@@ -831,7 +834,7 @@ def retention(cell: Cell, temperature_K: float, start_charge_cm2: float, *, dura
     out to ``duration_s`` (10 years), trap depths spread as the settings say.
     The electrostatics and tunneling tables are those of the case temperature;
     the thermal emission uses ``temperature_K``."""
-    if not (isinstance(temperature_K, (int, float)) and 1.0 <= temperature_K <= 1000.0):
+    if not (isinstance(temperature_K, numbers.Real) and 1.0 <= temperature_K <= 1000.0):
         raise _bad(f"retention.temperature_K: {temperature_K!r}; allowed 1 .. 1000 K")
     return _integrate(cell, "retention", float(gate_V), duration_s, float(start_charge_cm2),
                       float(temperature_K), times_s, first_s=1.0, spread=True)
@@ -864,20 +867,21 @@ def ispp(cell: Cell, start_V: float, step_V: float, pulse_s: float, count: int, 
     import time
 
     t0 = time.perf_counter()
-    if not (isinstance(count, int) and 2 <= count <= 1000):
+    if not (isinstance(count, numbers.Integral) and 2 <= count <= 1000):
         raise _bad(f"ispp.count: {count!r}; allowed an integer 2 .. 1000")
-    if not (isinstance(step_V, (int, float)) and 0 < step_V <= 5):
+    if not (isinstance(step_V, numbers.Real) and 0 < step_V <= 5):
         raise _bad(f"ispp.step_V: {step_V!r}; allowed 0 < step <= 5 V")
-    if not (isinstance(start_V, (int, float)) and start_V > 0):
+    if not (isinstance(start_V, numbers.Real) and start_V > 0):
         raise _bad(f"ispp.start_V: {start_V!r}; allowed a positive gate voltage")
-    if not (isinstance(pulse_s, (int, float)) and math.isfinite(pulse_s) and pulse_s > 0):
+    if not (isinstance(pulse_s, numbers.Real) and math.isfinite(pulse_s) and pulse_s > 0):
         raise _bad(f"ispp.pulse_s: {pulse_s!r}; allowed a duration > 0 s")
     fit = fit_steps or max(3, count // 2)
     if not 2 <= fit <= count:
         raise _bad(f"ispp.fit_steps: {fit!r}; allowed 2 .. count ({count})")
     q = _start(cell, start_charge_cm2)
     q_first = q
-    volts = start_V + step_V * np.arange(count)
+    count = int(count)
+    volts = float(start_V) + float(step_V) * np.arange(count)
     vt, qs, fmax = [], [], []
     for v in volts:
         fmax.append(float(cell.tunnel_field_MV_cm(v, q)))

@@ -29,6 +29,16 @@ def cell(case):
 
 
 @pytest.fixture(scope="module")
+def cylinder():
+    return load_case(CYLINDER)
+
+
+@pytest.fixture(scope="module")
+def cyl_cell(cylinder):
+    return C.prepare_cell(cylinder)
+
+
+@pytest.fixture(scope="module")
 def programmed(cell):
     return C.program(cell, 18.0, 1e-4)
 
@@ -71,11 +81,14 @@ def test_shift_matches_flat_band_shift_of_the_stack_summary(case):
     assert abs(dvc - 0.299) <= 6e-4  # physics-data Sec. 7, r_0 = 20 nm (the demo cylinder is that stack)
 
 
-def test_fields_follow_gauss_law_of_the_stack(case, cell):
+@pytest.mark.parametrize("geometry", ["planar", "cylindrical"])
+def test_fields_follow_gauss_law_of_the_stack(case, cell, cylinder, cyl_cell, geometry):
     # the cell's tabulated electrostatics against a direct stack_state with the sheet
-    # (Gauss's law, solver.tunneling.stack)
+    # (Gauss's law, solver.tunneling.stack; coaxial: r D constant between sheets)
     from solver.tunneling.stack import stack_data, stack_state
 
+    if geometry == "cylindrical":
+        case, cell = cylinder, cyl_cell
     for gate_V, q in ((17.0, -5e12), (-15.0, -8e12), (0.0, -1e13), (12.0, 2e12)):
         data = stack_data(case.with_value("layers.trap.charge_cm2", q))
         st = stack_state(data, gate_V=gate_V)
@@ -167,7 +180,7 @@ def test_ispp_slope_tends_to_one(cell):
     # J(F_end)/J(F_start) (an autonomous dF/dt = -k J(F): d F_end / d F_start = J(F_end)/J(F_start),
     # about 0.4 here), so the last 4 of 13 steps sit within ~0.4^8 of slope 1; the other
     # fluxes (gate side, detrapping) are < 1e-3 of the injection here. 5e-3 covers both.
-    r = C.ispp(cell, 14.0, 0.5, 1e-5, 13, fit_steps=4)
+    r = C.ispp(cell, np.float64(14.0), 0.5, 1e-5, np.int64(13), fit_steps=4)
     assert r.slope_V_per_V == pytest.approx(1.0, abs=5e-3)
     assert np.all(np.diff(r.threshold_V) > 0)
     assert np.max(r.max_tunnel_field_MV_cm) < 15.0  # common practice: keep the tunnel field < ~15 MV/cm
@@ -301,8 +314,8 @@ def test_design_window(cell):
     assert "JESD47" in s.caution and "estimates" in s.caution
 
 
-def test_cylindrical_cell_programs_with_slope_one():
-    cyl = C.prepare_cell(load_case(CYLINDER))
+def test_cylindrical_cell_programs_with_slope_one(cyl_cell):
+    cyl = cyl_cell
     assert -cyl.shift_V_per_cm2 * 1e12 == pytest.approx(0.2986, abs=6e-4)  # physics-data Sec. 7, r_0 = 20 nm
     r = C.ispp(cyl, 14.0, 0.5, 1e-5, 12, fit_steps=4)
     assert r.slope_V_per_V == pytest.approx(1.0, abs=5e-3)  # tolerance as in test_ispp_slope_tends_to_one
