@@ -52,6 +52,9 @@ def add_arguments(parser):
                         help=f"storage time (default {d['retention_years']:g} years)")
     parser.add_argument("--trap-spread-eV", type=float, default=0.0, metavar="EV",
                         help="Gaussian width of the trap depths for retention (default 0: one depth)")
+    parser.add_argument("--capture", choices=("complete", "cross-section"), default="complete",
+                        help="capture of injected electrons: complete (default) or on a straight crossing "
+                             "of the empty traps (material's cross-section and density; traps fill)")
     parser.add_argument("--poole-frenkel", action="store_true",
                         help="lower the thermal emission barrier by the Poole–Frenkel term")
     out = parser.add_mutually_exclusive_group()
@@ -182,7 +185,8 @@ def run(args) -> int:
     t_start = time.perf_counter()
     _check(args)
     case = load_case(args.case)
-    settings = CellSettings(trap_spread_eV=float(args.trap_spread_eV), poole_frenkel=bool(args.poole_frenkel))
+    settings = CellSettings(trap_spread_eV=float(args.trap_spread_eV), poole_frenkel=bool(args.poole_frenkel),
+                            capture=args.capture)
     cell = prepare_cell(case, settings)
     h5, figures = _paths(args, case)
     years = float(args.retention_years)
@@ -199,6 +203,7 @@ def run(args) -> int:
         "caution": CAUTION, "trap_layer": cell.layer_names[cell.trap_layer],
         "trap_depth_eV": cell.trap_depth_eV, "attempt_frequency_Hz": cell.attempt_frequency_Hz,
         "trap_spread_eV": settings.trap_spread_eV, "poole_frenkel": settings.poole_frenkel,
+        "capture": settings.capture,
         "temperature_K": cell.temperature_K, "program_V": s.program_V, "program_s": s.program_s,
         "erase_V": s.erase_V, "erase_s": s.erase_s, "retention_K": s.retention_K, "retention_s": s.retention_s,
         "ispp_start_V": float(args.ispp_start_V), "ispp_step_V": float(args.ispp_step_V),
@@ -259,9 +264,10 @@ def run(args) -> int:
     if max(s.max_tunnel_field_MV_cm, s.max_blocking_field_MV_cm) > BREAKDOWN_FIELD_MV_CM:
         info(args, f"note: the fields exceed {BREAKDOWN_FIELD_MV_CM:g} MV/cm, beyond dielectric breakdown of "
                    "thin oxides (common practice); lower --program-V / --erase-V for this cell")
-    if s.trap_fill_fraction is not None and s.trap_fill_fraction > 0.3:
+    if settings.capture == "complete" and s.trap_fill_fraction is not None and s.trap_fill_fraction > 0.3:
         info(args, f"note: the programmed charge is {100 * s.trap_fill_fraction:.0f} % of the trap sheet "
-                   "capacity N_T t; trap filling is not modelled, so the programmed V_T is an upper estimate")
+                   "capacity N_T t; complete capture ignores trap filling, so the programmed V_T is an upper "
+                   "estimate (--capture cross-section lets the traps fill)")
     info(args, f"tables {cell.build_seconds:.2f} s, total {elapsed:.2f} s")
     info(args, "wrote " + ", ".join(written))
     info(args, CAUTION)

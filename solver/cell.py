@@ -39,15 +39,20 @@ Electrostatics
 
 Charge balance (all fluxes as current densities, magnitudes in A/cm^2)
 -----------------------------------------------------------------------
-    q dQ_t/dt = - J_ce - J_ge + J_ch + J_tc + J_tg + J_th
+    q dQ_t/dt = - J_ce - J_ge + J_uc + J_ch + J_tc + J_tg + J_th
 
 5. J_ce: electrons from the channel conduction band through the tunnel layer
    into the trap layer's conduction band (F_t > 0), `stack_barrier(carrier=
    "electron", emitter="channel", through="injecting-layer")`, exact
-   Tsu–Esaki; every electron is captured (efficiency 1, assumed).
+   Tsu–Esaki; every electron is captured (efficiency 1, assumed). Option
+   ``capture="cross-section"``: the capture probability on the way across the
+   layer is eta = 1 - exp(-sigma_c (N_T t - n)) (a straight crossing of the
+   empty traps, sigma_c and N_T of the material, n the trapped electrons per
+   area; common practice), the rest, J_uc = (1 - eta) J, crosses on to the far
+   electrode (through the blocking layer in program: the gate-side "J_out").
 6. J_ge: electrons from the gate through the blocking layer into the trap
-   layer's conduction band (F_b < 0, erase), exact Tsu–Esaki, captured with
-   efficiency 1 (it opposes erase).
+   layer's conduction band (F_b < 0, erase), exact Tsu–Esaki, captured as in
+   item 5 (it opposes erase).
 7. J_ch: holes from the channel valence band through the tunnel layer into
    the trap layer's valence band (F_t < 0, erase), exact Tsu–Esaki
    (`carrier="hole"`); every hole is captured and recombines with a trapped
@@ -74,10 +79,10 @@ Charge balance (all fluxes as current densities, magnitudes in A/cm^2)
    default: the full lowering of an isolated Coulomb centre overstates it in
    a charged nitride). Emitted electrons are taken as lost to the electrodes
    (no re-capture), the usual first-order retention model.
-10. Neglected: hole injection from the gate, electrons passing the trap layer
-   uncaptured, trap filling (capture does not slow as traps fill: the
-   stored density is reported against N_T t), lateral migration,
-   hole detrapping, stress-induced leakage, cycling damage.
+10. Neglected: hole injection from the gate, trap filling with the default
+   complete capture (the stored density is reported against N_T t; item 5
+   gives the option), lateral migration, hole detrapping, stress-induced
+   leakage, cycling damage.
 11. Trap-depth distribution (retention): a Gaussian of width sigma around
    E_T, integrated by Gauss–Hermite quadrature (``spread_points`` nodes); each
    node a population with its own thermal and tunneling rates, all filled in
@@ -158,20 +163,22 @@ BREAKDOWN_FIELD_MV_CM = 20.0
 START_S = 1e-15  # transients start here (see the module docstring)
 RECOMBINATION_SCALE_CM2 = 1e9  # n_s of item 12
 CHARGE_UNIT_CM2 = 1e12  # the integrator works in units of 1e12 q/cm^2
-FLUX_NAMES = ("channel_electrons", "gate_electrons", "channel_holes", "trap_to_channel", "trap_to_gate",
-              "thermal_emission")
-FLUX_SIGNS = MappingProxyType({"channel_electrons": -1, "gate_electrons": -1, "channel_holes": +1,
-                               "trap_to_channel": +1, "trap_to_gate": +1, "thermal_emission": +1})
+CAPTURE_MODELS = ("complete", "cross-section")
+FLUX_NAMES = ("channel_electrons", "gate_electrons", "uncaptured_electrons", "channel_holes", "trap_to_channel",
+              "trap_to_gate", "thermal_emission")
+FLUX_SIGNS = MappingProxyType({"channel_electrons": -1, "gate_electrons": -1, "uncaptured_electrons": +1,
+                               "channel_holes": +1, "trap_to_channel": +1, "trap_to_gate": +1,
+                               "thermal_emission": +1})
 FLUX_DESCRIPTIONS = MappingProxyType({
-    "channel_electrons": "electrons injected from the channel through the tunnel layer (captured)",
-    "gate_electrons": "electrons injected from the gate through the blocking layer (captured)",
+    "channel_electrons": "electrons injected from the channel through the tunnel layer",
+    "gate_electrons": "electrons injected from the gate through the blocking layer",
+    "uncaptured_electrons": "injected electrons crossing the trap layer uncaptured, on to the far electrode",
     "channel_holes": "holes injected from the channel through the tunnel layer (recombine or trapped)",
     "trap_to_channel": "trap-to-band tunneling of trapped electrons into the channel",
     "trap_to_gate": "trap-to-band tunneling of trapped electrons into the gate",
     "thermal_emission": "thermal emission of trapped electrons (lost to the electrodes)",
 })
 _LN_FLOOR = -700.0  # ln of a current too small to matter (A/cm^2)
-_Q_PER_CM2_C = Q_C  # q per cm^2 * this = C/cm^2
 
 
 def _bad(message: str) -> CaseError:
@@ -292,6 +299,10 @@ class CellSettings:
     trap_spread_eV : Gaussian width sigma of the trap depths (retention; 0 = one depth)
     spread_points : Gauss–Hermite nodes for the spread
     poole_frenkel : Poole–Frenkel lowering of the thermal emission
+    capture : "complete" (every injected electron is captured, the default) or
+        "cross-section" (capture probability 1 - exp(-sigma_c (N_T t - n)) on the way
+        across the trap layer, from the material's capture cross-section and trap
+        density; the rest crosses on: trap filling slows programming)
     holes, gate_injection, trap_tunneling, thermal_emission : include these fluxes
     """
 
@@ -302,6 +313,7 @@ class CellSettings:
     trap_spread_eV: float = 0.0
     spread_points: int = 31
     poole_frenkel: bool = False
+    capture: str = "complete"
     holes: bool = True
     gate_injection: bool = True
     trap_tunneling: bool = True
@@ -318,6 +330,8 @@ class CellSettings:
         for name, v, lo, hi in checks:
             if not (isinstance(v, numbers.Real) and math.isfinite(v) and lo <= v <= hi):
                 raise _bad(f"cell.{name}: {v!r} is out of range; allowed {lo:g} .. {hi:g}")
+        if self.capture not in CAPTURE_MODELS:
+            raise _bad(f"cell.capture: {self.capture!r}; allowed {', '.join(map(repr, CAPTURE_MODELS))}")
         if not (isinstance(self.spread_points, numbers.Integral) and 1 <= self.spread_points <= 64):
             raise _bad(f"cell.spread_points: {self.spread_points!r}; allowed an integer 1 .. 64")
 
@@ -325,9 +339,9 @@ class CellSettings:
 class _LogTable:
     """ln J(F) on a coarse grid -> cubic spline -> fine grid, linear interpolation.
 
-    Outside [F_lo, F_hi] the value is `outside` (0 below the grid's start for
-    injection currents, which only grow with |F|); beyond the end `limit` is hit
-    and the caller raises."""
+    Outside the grid the value is 0: below its first field the injection
+    currents are negligible (< 1e-40 A/cm^2 on the demo cells), beyond its end
+    the callers have raised already (`Cell.check_fields`)."""
 
     def __init__(self, field, value, refine=8):
         from scipy.interpolate import CubicSpline
@@ -370,6 +384,7 @@ class Cell:
     attempt_frequency_Hz: float
     trap_density_cm3: float | None
     trap_sheet_capacity_cm2: float | None
+    capture_cross_section_cm2: float | None
     optical_permittivity: float | None
     initial_charge_cm2: float
     neutral_threshold_V: float
@@ -640,11 +655,15 @@ def prepare_cell(case, settings: CellSettings | None = None) -> Cell:
         trap_tables[side] = (grid, ln)
 
     capacity = None if mat.trap_density_cm3 is None else mat.trap_density_cm3 * layer.thickness_nm * 1e-7
+    if s.capture == "cross-section" and (capacity is None or mat.capture_cross_section_cm2 is None):
+        raise _bad(f"layers.{layer.name}.material: {mat.name!r} needs trap_density_cm3 and "
+                   "capture_cross_section_cm2 for capture = 'cross-section'; give them as material overrides")
     return Cell(
         title=case.title, layer_names=tuple(data0.names), trap_layer=trap, tunnel_layer=tunnel,
         blocking_layer=block, geometry=data0.geometry, temperature_K=data0.temperature_K,
         trap_depth_eV=float(mat.trap_depth_eV), attempt_frequency_Hz=nu,
         trap_density_cm3=mat.trap_density_cm3, trap_sheet_capacity_cm2=capacity,
+        capture_cross_section_cm2=mat.capture_cross_section_cm2,
         optical_permittivity=mat.optical_permittivity, initial_charge_cm2=q0,
         neutral_threshold_V=_neutral_threshold_V(data0), shift_V_per_cm2=shift, settings=s,
         table_field_MV_cm=_readonly(grid), table_gate_V=_readonly(gate_V),
@@ -738,6 +757,15 @@ def _integrate(cell: Cell, operation, gate_V, duration_s, start_charge_cm2, temp
     per_unit = 1.0 / (Q_C * unit)  # A/cm^2 -> units of 1e12 q/cm^2 per s
     ns = RECOMBINATION_SCALE_CM2 / unit
     t_ = cell.tables
+    if s.capture == "cross-section":
+        sig_cap = cell.capture_cross_section_cm2 * cell.trap_sheet_capacity_cm2  # sigma_c N_T t
+        cap_units = cell.trap_sheet_capacity_cm2 / unit
+
+        def captured(ne):
+            return -math.expm1(-sig_cap * max(1.0 - ne / cap_units, 0.0))
+    else:
+        def captured(ne):
+            return 1.0
 
     def rates(y):
         n = np.maximum(y[:m], 0.0)
@@ -756,7 +784,7 @@ def _integrate(cell: Cell, operation, gate_V, duration_s, start_charge_cm2, temp
     def rhs(tau, y):
         t = math.exp(tau)
         n, p, ne, ft, fb, je, jg, jh, e1, e2, e3 = rates(y)
-        inj_e = (je + jg) * per_unit
+        inj_e = (je + jg) * per_unit * captured(ne)
         inj_h = jh * per_unit
         fe = ne / (ne + ns)  # share of holes recombining with electrons (item 12)
         fp = p / (p + ns)  # share of electrons recombining with holes
@@ -783,6 +811,7 @@ def _integrate(cell: Cell, operation, gate_V, duration_s, start_charge_cm2, temp
         n, p, ne, ft, fb, je, jg, jh, e1, e2, e3 = rates(y[:, i])
         currents["channel_electrons"][i] = je
         currents["gate_electrons"][i] = jg
+        currents["uncaptured_electrons"][i] = (je + jg) * (1.0 - captured(ne))
         currents["channel_holes"][i] = jh
         nq = n * unit * Q_C
         currents["trap_to_channel"][i] = float(np.sum(nq * e1))

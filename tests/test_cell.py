@@ -189,6 +189,23 @@ def test_ispp_slope_tends_to_one(cell):
     assert r2.slope_V_per_V == pytest.approx(1.0, abs=5e-3)
 
 
+def test_cross_section_capture(case):
+    # capture on a straight crossing of the empty traps: eta = 1 - exp(-sigma_c N_T t) at the
+    # start (common practice; sigma_c 1e-14 cm^2, N_T 5e19 cm^-3: physics-data Sec. 3.4), the
+    # rest passes to the gate; trap filling brings the ISPP slope below 1, into the 0.6-1.0
+    # range of charge-trap cells (physics-data Sec. 5.2, common practice)
+    c = C.prepare_cell(case, C.CellSettings(capture="cross-section"))
+    times = np.geomspace(1e-14, 1e-4, 800)
+    tr = C.program(c, 18.0, 1e-4, times_s=times)
+    eta0 = -math.expm1(-1e-14 * 5e19 * 6e-7)
+    j = tr.currents_A_cm2
+    assert j["uncaptured_electrons"][0] / j["channel_electrons"][0] == pytest.approx(1 - eta0, rel=1e-6)
+    moved = np.trapezoid(_net_current(tr) * tr.time_s, np.log(tr.time_s)) / Q
+    assert moved == pytest.approx(tr.charge_cm2[-1] - tr.start_charge_cm2, rel=2e-3)
+    r = C.ispp(c, 14.0, 0.5, 1e-5, 13, fit_steps=4)
+    assert 0.6 < r.slope_V_per_V < 0.95
+
+
 # ---------------------------------------------------------------- erase
 
 
@@ -382,3 +399,6 @@ def test_bad_settings():
     with pytest.raises(CaseError) as e:
         C.CellSettings(trap_spread_eV=-0.1)
     assert _one_line(e).startswith("cell.trap_spread_eV")
+    with pytest.raises(CaseError) as e:
+        C.CellSettings(capture="partial")
+    assert _one_line(e).startswith("cell.capture")
