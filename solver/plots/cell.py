@@ -79,7 +79,8 @@ def ispp_figure(path, *, gate_V, threshold_V, slope_V_per_V, fit_steps, pulse_s,
             label=f"fit over the last {fit_steps} steps: {slope_V_per_V:.3f} V/V")
     if start_threshold_V is not None:
         ax.axhline(start_threshold_V, color=_GUIDE, lw=0.8, ls=":")
-        ax.text(v[0], start_threshold_V, " before the first pulse", va="bottom", fontsize=7.5, color="#444444")
+        ax.text(v[-1], start_threshold_V, "before the first pulse ", va="bottom", ha="right", fontsize=7.5,
+                color="#444444")
     lo = min(vt.min(), start_threshold_V if start_threshold_V is not None else vt.min())
     ax.set_ylim(lo - 0.5, vt.max() + 0.8)
     ax.set_xlabel("program pulse voltage V_pgm (V)")
