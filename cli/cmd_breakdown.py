@@ -47,7 +47,7 @@ def add_arguments(parser):
                         help="points of the sweep (default 121, fine enough to resolve the oscillations)")
     parser.add_argument("--carrier", choices=("electron", "hole"), default="electron",
                         help="tunneling carrier (default electron)")
-    parser.add_argument("--emitter", "--polarity", dest="emitter", choices=("channel", "gate"),
+    parser.add_argument("--emitter", choices=("channel", "gate"),
                         default="channel",
                         help="emitting side: channel (electrons: gate positive, program) or gate "
                              "(electrons: gate negative, reverse polarity); default channel")
@@ -80,7 +80,7 @@ def _paths(args, case):
         h5 = Path(args.output)
         stem = h5.with_suffix("")
         figures = {k: Path(f"{stem}-{v}") for k, v in FIGURES.items()}
-        h5.parent.mkdir(parents=True, exist_ok=True) if str(h5.parent) not in ("", ".") else None
+        h5.parent.mkdir(parents=True, exist_ok=True)
     else:
         directory = Path(args.output_dir) if args.output_dir else Path(f"{Path(case.source).stem}-breakdown")
         if directory.exists() and not directory.is_dir():
@@ -117,7 +117,10 @@ def _sweep(args, case, settings):
 
 
 def _spectrum_fields(curve):
-    f = curve.field_MV_cm[np.isfinite(curve.field_MV_cm)]
+    """Three fields for T(E) (below, just above and well above the FN onset),
+    within the emitting part of the sweep."""
+    emitting = np.array([r != "none" for r in curve.regime]) & np.isfinite(curve.field_MV_cm)
+    f = curve.field_MV_cm[emitting]
     lo, hi = float(f.min()), float(f.max())
     onset = curve.onset_field_MV_cm
     picks = [0.6 * onset, 1.15 * onset, 1.8 * onset] if np.isfinite(onset) else [lo, 0.5 * (lo + hi), hi]
@@ -211,9 +214,10 @@ def _summary_rows(curve, count=7):
 
 
 def run(args) -> int:
-    from solver.breakdown import (BreakdownSettings, breakdown_curve, breakdown_map,
-                                  transmission_spectra)
+    from solver.breakdown import (REGIMES, BreakdownSettings, breakdown_curve, breakdown_map,
+                                  replace_settings, transmission_spectra)
     from solver.case import load_case
+    from solver.errors import ComputationError
     from solver.store import write_run
     from solver.tunneling.stack import stack_data
 
@@ -224,30 +228,32 @@ def run(args) -> int:
     fields, gates = _sweep(args, case, settings)
     h5, figures = _paths(args, case)
     curve = breakdown_curve(data, field_MV_cm=fields, gate_V=gates, settings=settings)
-    if not np.any(np.isfinite(curve.current_exact_A_cm2)):
+    if all(r == "none" for r in curve.regime):
         raise _bad("--gate-from/--gate-to: no point of the sweep emits "
                    f"{args.carrier}s from the {args.emitter}; use gate voltages of the other sign")
+    if not np.any(np.isfinite(curve.current_exact_A_cm2)):
+        raise ComputationError(f"the exact current did not converge at any of the {curve.field_MV_cm.size} "
+                               "points of the sweep")
     spectra = transmission_spectra(data, _spectrum_fields(curve), settings=settings)
     inj = curve.injecting_layer
     bmap = None
     if not args.no_map:
         t0 = data.thickness_nm[inj]
-        t_lo = args.map_thickness_from if args.map_thickness_from is not None else max(1.0, 0.4 * t0)
         t_hi = args.map_thickness_to if args.map_thickness_to is not None else 2.0 * t0
+        t_lo = args.map_thickness_from if args.map_thickness_from is not None else min(max(1.0, 0.4 * t0),
+                                                                                        0.5 * t_hi)
         if not (0 < t_lo < t_hi <= 100):
             raise _bad(f"--map-thickness-from/--map-thickness-to: {t_lo}..{t_hi} nm; allowed 0 < from < to <= 100")
         # the image-force staircase costs several times more per point
-        n_t = args.map_thicknesses or (20 if args.image_force else 40)
-        n_f = args.map_fields or (30 if args.image_force else 60)
+        n_t = args.map_thicknesses if args.map_thicknesses is not None else (20 if args.image_force else 40)
+        n_f = args.map_fields if args.map_fields is not None else (30 if args.image_force else 60)
         for flag, n in (("--map-thicknesses", n_t), ("--map-fields", n_f)):
             if not 2 <= n <= 1000:
                 raise _bad(f"{flag}: {n} is out of range; allowed 2 .. 1000")
         f_ok = curve.field_MV_cm[np.isfinite(curve.current_exact_A_cm2)]
         bmap = breakdown_map(data, np.linspace(t_lo, t_hi, n_t),
                              np.linspace(f_ok.min(), f_ok.max(), n_f),
-                             settings=BreakdownSettings(carrier=args.carrier, emitter=args.emitter,
-                                                        through=args.through, image_force=bool(args.image_force),
-                                                        rtol=1e-3))
+                             settings=replace_settings(settings, rtol=1e-3))
 
     from cli.cmd_bands import command_line
 
@@ -257,7 +263,8 @@ def run(args) -> int:
         "injecting_thickness_nm": curve.injecting_thickness_nm,
         "barrier_height_eV": curve.barrier_height_eV, "onset_field_MV_cm": curve.onset_field_MV_cm,
         "temperature_K": curve.temperature_K, "failed_points": curve.failed_points,
-        "relaxed_points": curve.relaxed_points, "regimes": ["direct", "fowler-nordheim", "interference", "none"],
+        "map_failed_points": bmap.failed_points if bmap is not None else 0,
+        "regimes": list(REGIMES),
         "geometry": data.geometry,
         "caution": CAUTION,
     }
@@ -336,10 +343,6 @@ def run(args) -> int:
     if failed:
         print(f"warning: {failed} point(s) whose energy integral did not converge are stored as NaN",
               file=sys.stderr)
-    relaxed = curve.relaxed_points + (bmap.relaxed_points if bmap is not None else 0)
-    if relaxed:
-        info(args, f"note: {relaxed} point(s) with a sharp resonance were integrated to 1e-2 relative "
-                   "instead of the requested tolerance")
     info(args, "wrote " + ", ".join(str(p) for p in written))
     info(args, CAUTION)
     return 0

@@ -58,6 +58,11 @@ def test_bad_input_is_one_line_exit_2(tmp_path, capsys):
                  "--emitter", "gate", "--gate-from", "2", "--gate-to", "6", "--points", "5", "--no-map"])
     err = capsys.readouterr().err
     assert code == 2 and "no point of the sweep emits" in err
+    # a map size of 0 is refused, not replaced by the default
+    code = main(["breakdown", "cases/mos-capacitor.toml", "--output", str(tmp_path / "z.h5"),
+                 "--points", "5", "--map-fields", "0"])
+    err = capsys.readouterr().err
+    assert code == 2 and err.startswith("error: --map-fields: 0 is out of range") and err.count("\n") == 1
 
 
 def test_cylindrical_cell(tmp_path, capsys):
