@@ -712,6 +712,8 @@ class CellTransient:
 
 
 def _times(duration_s, first_s, per_decade=10):
+    if duration_s <= first_s:
+        return np.array([float(duration_s)])
     n = max(2, int(round(per_decade * math.log10(duration_s / first_s))) + 1)
     t = np.geomspace(first_s, duration_s, n)
     t[-1] = duration_s

@@ -129,6 +129,12 @@ def test_program_is_monotonic_in_time_and_voltage(cell):
     assert finals[0] < finals[1] < finals[2]
 
 
+def test_pulses_shorter_than_the_first_output_time(cell):
+    tr = C.program(cell, 18.0, 1e-12)
+    assert tr.time_s.tolist() == [1e-12]
+    assert tr.start_threshold_V < tr.final_threshold_V < tr.start_threshold_V + 1e-3
+
+
 def test_program_self_limits(cell, programmed):
     # stored electrons lower the tunnel field (Gauss's law), so the injection falls
     f = programmed.tunnel_field_MV_cm
