@@ -93,6 +93,10 @@ Charge balance (all fluxes as current densities, magnitudes in A/cm^2)
    1e9 q/cm^2 (about 1 mV of V_T) keeping the balance smooth for the implicit
    integrator; electrons injected into a trap layer holding holes recombine
    the same way.
+13. Temperature: the tables (tunneling currents, trap-to-band rates with
+   their Fermi factors, the channel electrostatics) are those of the case
+   temperature; a retention run at another temperature changes the thermal
+   emission only (elastic tunneling depends weakly on T).
 
 Numerics
 --------

@@ -4,6 +4,7 @@ from dataclasses import replace
 
 import numpy as np
 import pytest
+from hypothesis import given, settings, strategies as st
 from numpy.testing import assert_allclose
 from scipy.constants import e as Q, epsilon_0 as EPS0, k as KB
 
@@ -127,6 +128,17 @@ def test_program_is_monotonic_in_time_and_voltage(cell):
         assert tr.final_threshold_V > tr.start_threshold_V
         finals.append(tr.final_threshold_V)
     assert finals[0] < finals[1] < finals[2]
+
+
+@settings(max_examples=8, deadline=None)
+@given(gate_V=st.floats(14.0, 19.0), log_pulse=st.floats(-7.0, -2.0))
+def test_program_never_overshoots(cell, gate_V, log_pulse):
+    # self-limiting injection (Gauss's law): V_T rises monotonically and the tunnel field
+    # falls but never reverses (the injection stops before it would)
+    tr = C.program(cell, gate_V, 10.0 ** log_pulse)
+    assert np.all(np.diff(tr.threshold_V) >= -1e-9)
+    assert np.all(np.diff(tr.tunnel_field_MV_cm) <= 1e-9)
+    assert tr.tunnel_field_MV_cm[-1] > 5.0
 
 
 def test_pulses_shorter_than_the_first_output_time(cell):
