@@ -347,33 +347,56 @@ def write_run(
     `path`, ValueError for malformed groups (naming the entry).
     """
     target = Path(path)
-    if target.exists():
-        if target.is_dir():
-            raise StoreError(f"{target}: is a directory")
-        try:
-            kind = file_kind(target)
-        except StoreError as err:
-            raise StoreError(f"{err}; refusing to overwrite it (remove it or choose another file)") from None
-        if kind != "run":
-            raise StoreError(
-                f"{target}: is a tunnelstack {kind} file; refusing to overwrite it with a run "
-                "(choose another output file or remove it first)"
-            )
-    directory = target.parent if str(target.parent) else Path(".")
-    if not directory.is_dir():
-        raise StoreError(f"{target}: directory {directory} does not exist")
+    _existing_kind(target, "run")
+    _directory_of(target)
     for gname in groups:
         if not gname or "/" in gname:
             raise ValueError(f"group name {gname!r} must be non-empty without '/'")
 
-    fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
+    def fill(f: h5py.File) -> None:
+        _set_attrs(f, root_attributes("run", case_text, command, attrs))
+        for gname, entries in groups.items():
+            write_group(f.create_group(gname), entries)
+
+    _write_atomically(target, fill)
+    return target
+
+
+def _directory_of(target: Path) -> Path:
+    directory = target.parent if str(target.parent) else Path(".")
+    if not directory.is_dir():
+        raise StoreError(f"{target}: directory {directory} does not exist")
+    return directory
+
+
+def _existing_kind(target: Path, kind: str) -> bool:
+    """True if a tunnelstack file of `kind` is at `target` (it may be replaced),
+    False if nothing is there; StoreError for anything else (never overwritten)."""
+    if not target.exists():
+        return False
+    if target.is_dir():
+        raise StoreError(f"{target}: is a directory")
+    try:
+        found = file_kind(target)
+    except StoreError as err:
+        raise StoreError(f"{err}; refusing to overwrite it (remove it or choose another file)") from None
+    if found != kind:
+        raise StoreError(
+            f"{target}: is a tunnelstack {found} file, not a {kind} file; refusing to overwrite it "
+            "(choose another output file or remove it first)"
+        )
+    return True
+
+
+def _write_atomically(target: Path, fill) -> None:
+    """Write an HDF5 file through `fill(h5py.File)` into a temporary file beside
+    `target`, flush and fsync it, then move it over `target` (os.replace)."""
+    fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=_directory_of(target))
     os.close(fd)
     tmp = Path(tmp_name)
     try:
         with h5py.File(tmp, "w") as f:
-            _set_attrs(f, root_attributes("run", case_text, command, attrs))
-            for gname, entries in groups.items():
-                write_group(f.create_group(gname), entries)
+            fill(f)
             f.flush()
         with open(tmp, "rb+") as fh:
             os.fsync(fh.fileno())
@@ -382,7 +405,6 @@ def write_run(
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise
-    return target
 
 
 def _umask() -> int:
@@ -678,28 +700,17 @@ def _create_study_layout(f: h5py.File, plan, reserves: dict[str, int]) -> None:
 
 
 def _write_new_study(path: Path, plan, case_text: str, command: str, reserves, copy_from=None) -> None:
-    directory = path.parent if str(path.parent) else Path(".")
-    fd, tmp_name = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=directory)
-    os.close(fd)
-    tmp = Path(tmp_name)
-    try:
-        with h5py.File(tmp, "w") as f:
-            if copy_from is None:
-                _set_attrs(f, _study_root_attrs(plan, case_text, command))
-            else:
-                for key, value in copy_from.attrs.items():
-                    f.attrs[key] = value
-            _create_study_layout(f, plan, reserves)
-            if copy_from is not None:
-                _copy_study_data(copy_from["study"], f["study"], plan, reserves)
-            f.flush()
-        with open(tmp, "rb+") as fh:
-            os.fsync(fh.fileno())
-        os.chmod(tmp, 0o666 & ~_umask())
-        os.replace(tmp, path)
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
+    def fill(f: h5py.File) -> None:
+        if copy_from is None:
+            _set_attrs(f, _study_root_attrs(plan, case_text, command))
+        else:
+            for key, value in copy_from.attrs.items():
+                f.attrs[key] = value
+        _create_study_layout(f, plan, reserves)
+        if copy_from is not None:
+            _copy_study_data(copy_from["study"], f["study"], plan, reserves)
+
+    _write_atomically(path, fill)
 
 
 def _copy_study_data(src: h5py.Group, dst: h5py.Group, plan, reserves) -> None:
@@ -847,24 +858,13 @@ def open_study(
     different case or study and `restart` is false.
     """
     target = Path(path)
-    directory = target.parent if str(target.parent) else Path(".")
-    if not directory.is_dir():
-        raise StoreError(f"{target}: directory {directory} does not exist")
+    directory = _directory_of(target)
     lock = StudyLock(target, notice=notice).acquire()
     try:
         # temp files of a writer killed while creating or rebuilding this file
         for stale in directory.glob(f".{glob.escape(target.name)}.*.tmp"):
             stale.unlink(missing_ok=True)
-        if target.exists():
-            try:
-                kind = file_kind(target)
-            except StoreError as err:
-                raise StoreError(f"{err}; refusing to overwrite it (remove it or choose another file)") from None
-            if kind != "study":
-                raise StoreError(
-                    f"{target}: is a tunnelstack {kind} file, not a study; refusing to overwrite it "
-                    "(choose another output file)"
-                )
+        if _existing_kind(target, "study"):
             with open_checked(target, kind="study") as f:
                 old_hash = _str(f.attrs.get("study_hash"))
                 done = int(np.count_nonzero(f["study/completed"][...])) if "study/completed" in f else 0
