@@ -230,19 +230,17 @@ def _sloped_layer(z0, z1, lam, mu, d, anchors, u, v):
         delta = _zeta_difference(z0, z1, lam_d)
     else:
         delta = eta1 - eta0                            # at most one of them is nonzero
+    # products Ai(z1) Bi(z0)-like carry exp(-delta), Bi(z1) Ai(z0)-like exp(+delta);
+    # exp(|delta|) is taken out, so the smaller kind keeps exp(-2 |delta|)
     g = math.exp(-2.0 * abs(delta))
+    g_dn = g if delta >= 0.0 else 1.0
+    g_up = 1.0 if delta >= 0.0 else g
     a = mu / lam
     b = lam / mu
-    if delta >= 0.0:
-        m11 = _PI * (ai1 * bip0 * g - bi1 * aip0)
-        m12 = _PI * a * (bi1 * ai0 - ai1 * bi0 * g)
-        m21 = _PI * b * (aip1 * bip0 * g - bip1 * aip0)
-        m22 = _PI * (bip1 * ai0 - aip1 * bi0 * g)
-    else:
-        m11 = _PI * (ai1 * bip0 - bi1 * aip0 * g)
-        m12 = _PI * a * (bi1 * ai0 * g - ai1 * bi0)
-        m21 = _PI * b * (aip1 * bip0 - bip1 * aip0 * g)
-        m22 = _PI * (bip1 * ai0 * g - aip1 * bi0)
+    m11 = _PI * (ai1 * bip0 * g_dn - bi1 * aip0 * g_up)
+    m12 = _PI * a * (bi1 * ai0 * g_up - ai1 * bi0 * g_dn)
+    m21 = _PI * b * (aip1 * bip0 * g_dn - bip1 * aip0 * g_up)
+    m22 = _PI * (bip1 * ai0 * g_up - aip1 * bi0 * g_dn)
     return m11, m12, m21, m22, abs(delta)
 
 
@@ -262,7 +260,7 @@ def _renormalise(p11, p12, p21, p22, logs):
 _BLOCK = 512   # energies per block: the running products stay in cache across layers
 
 
-@numba.njit(cache=True, error_model="numpy")
+@numba.njit(cache=True, error_model="numpy", inline="always")
 def _update(p11, p12, p21, p22, logs, j, m11, m12, m21, m22, sc):
     a11 = p11[j]
     a21 = p21[j]
@@ -281,15 +279,7 @@ def _apply_flat_poly(eps, p11, p12, p21, p22, logs, mu, d, y):
     so that LLVM sees a simple loop and vectorises it)."""
     for j in range(eps.shape[0]):
         m11, m12, m21, m22, sc = _flat_layer_poly(mu * (y - eps[j]), mu, d)
-        a11 = p11[j]
-        a21 = p21[j]
-        a12 = p12[j]
-        a22 = p22[j]
-        p11[j] = m11 * a11 + m12 * a21
-        p12[j] = m11 * a12 + m12 * a22
-        p21[j] = m21 * a11 + m22 * a21
-        p22[j] = m21 * a12 + m22 * a22
-        logs[j] += sc
+        _update(p11, p12, p21, p22, logs, j, m11, m12, m21, m22, sc)
 
 
 @numba.njit(cache=True, error_model="numpy")

@@ -15,7 +15,7 @@ import numpy as np
 
 from solver.units import EV_TO_J, M0_KG, NM_TO_M
 
-__all__ = ["Barrier", "LayerDataSI"]
+__all__ = ["Barrier", "LayerDataSI", "check_lead", "require_barrier"]
 
 
 @dataclass(frozen=True)
@@ -31,6 +31,25 @@ class LayerDataSI:
     mass_kg: np.ndarray
     lead_edge_J: np.ndarray
     lead_mass_kg: np.ndarray
+
+
+def check_lead(lead, side: str, where: str) -> tuple[float, float]:
+    """A lead as a (band_edge_eV, mass) pair of floats; ValueError naming `where` and `side` otherwise."""
+    try:
+        edge, m = (float(v) for v in lead)
+    except (TypeError, ValueError):
+        raise ValueError(f"{where} {side}: lead must be a (band_edge_eV, mass) pair, got {lead!r}") from None
+    if not math.isfinite(edge):
+        raise ValueError(f"{where} {side}: band_edge_eV must be finite, got {edge}")
+    if not (m > 0 and math.isfinite(m)):
+        raise ValueError(f"{where} {side}: mass must be finite and > 0 (units of m0), got {m}")
+    return edge, m
+
+
+def require_barrier(barrier, where: str) -> None:
+    """ValueError unless `barrier` is a Barrier (the first argument of every routine here)."""
+    if not isinstance(barrier, Barrier):
+        raise ValueError(f"{where}: barrier must be a solver.tunneling.Barrier, got {type(barrier).__name__}")
 
 
 def _readonly(values) -> np.ndarray:
@@ -99,16 +118,7 @@ class Barrier:
                 if not math.isfinite(u):
                     raise ValueError(f"Barrier layer {i}: {name} must be finite, got {u}")
         for side in ("left", "right"):
-            lead = getattr(self, side)
-            try:
-                edge, m = (float(v) for v in lead)
-            except (TypeError, ValueError):
-                raise ValueError(f"Barrier {side}: lead must be a (band_edge_eV, mass) pair, got {lead!r}") from None
-            if not math.isfinite(edge):
-                raise ValueError(f"Barrier {side}: band_edge_eV must be finite, got {edge}")
-            if not (m > 0 and math.isfinite(m)):
-                raise ValueError(f"Barrier {side}: mass must be finite and > 0 (units of m0), got {m}")
-            object.__setattr__(self, side, (edge, m))
+            object.__setattr__(self, side, check_lead(getattr(self, side), side, "Barrier"))
 
     @property
     def n_layers(self) -> int:

@@ -60,6 +60,7 @@ from typing import Callable
 import numpy as np
 
 from solver.errors import ComputationError, ConvergenceError, ConvergenceRecord
+from solver.tunneling.barrier import require_barrier
 from solver.units import A_PER_M2_TO_A_PER_CM2, BOLTZMANN_EV_K, EV_TO_J, HBAR_J_S, M0_KG, Q_C
 
 __all__ = [
@@ -346,6 +347,7 @@ def _resonance_edges(centers, widths, lower, upper):
 def tsu_esaki(barrier, fermi_left_eV, fermi_right_eV, temperature_K, *, model="exact", rtol=1e-4,
               supply_mass=None, resonances=True, atol_A_cm2=ATOL_A_CM2) -> TsuEsakiResult:
     """Tsu–Esaki current density with its integration record (see `current_density`)."""
+    require_barrier(barrier, "current_density")
     _check_inputs(fermi_left_eV, fermi_right_eV, temperature_K, rtol, supply_mass, atol_A_cm2)
     fermi_left_eV, fermi_right_eV = float(fermi_left_eV), float(fermi_right_eV)
     t_model = _transmission_model(model)
@@ -502,6 +504,22 @@ def current_density(barrier, fermi_left_eV, fermi_right_eV, temperature_K, *, mo
 # ---------------------------------------------------------------- sweeps
 
 
+def _thickness_and_permittivity(barrier, relative_permittivity, where):
+    """Layer thicknesses (nm) and relative permittivities (None: all equal) as arrays, checked."""
+    require_barrier(barrier, where)
+    d = np.asarray(barrier.thickness_nm, dtype=np.float64)
+    if relative_permittivity is None:
+        return d, np.ones_like(d)
+    eps = np.asarray(relative_permittivity, dtype=np.float64)
+    if eps.shape != d.shape:
+        raise ValueError(f"{where}: relative_permittivity must have one value per layer ({d.size}), got shape "
+                         f"{eps.shape}")
+    for i, e in enumerate(eps):
+        if not (np.isfinite(e) and e > 0):
+            raise ValueError(f"{where}: relative_permittivity layer {i}: must be finite and > 0, got {e}")
+    return d, eps
+
+
 def with_bias(barrier, bias_V, relative_permittivity=None):
     """The barrier with a voltage `bias_V` applied to the right lead relative to the left.
 
@@ -512,18 +530,9 @@ def with_bias(barrier, bias_V, relative_permittivity=None):
     semiconductor's band bending are not modelled here (see tunneling.stack for
     a case's stack at a gate voltage).
     """
-    d = np.asarray(barrier.thickness_nm, dtype=np.float64)
-    if relative_permittivity is None:
-        eps = np.ones_like(d)
-    else:
-        eps = np.asarray(relative_permittivity, dtype=np.float64)
-        if eps.shape != d.shape:
-            raise ValueError(f"relative_permittivity must have one value per layer ({d.size}), got {eps.size}")
-        for i, e in enumerate(eps):
-            if not (np.isfinite(e) and e > 0):
-                raise ValueError(f"relative_permittivity layer {i}: must be finite and > 0, got {e}")
+    d, eps = _thickness_and_permittivity(barrier, relative_permittivity, "with_bias")
     if not np.isfinite(bias_V):
-        raise ValueError(f"bias_V must be finite, got {bias_V!r}")
+        raise ValueError(f"with_bias: bias_V must be finite, got {bias_V!r}")
     weight = d / eps
     drop = float(bias_V) * weight / weight.sum()
     shift_end = -np.cumsum(drop)
@@ -540,10 +549,9 @@ def with_bias(barrier, bias_V, relative_permittivity=None):
 
 def bias_for_field(barrier, layer, field_MV_cm, relative_permittivity=None):
     """Bias (V) that `with_bias` needs for the field `field_MV_cm` in layer `layer`."""
-    d = np.asarray(barrier.thickness_nm, dtype=np.float64)
-    if not 0 <= layer < d.size:
-        raise ValueError(f"layer must be in 0..{d.size - 1}, got {layer!r}")
-    eps = np.ones_like(d) if relative_permittivity is None else np.asarray(relative_permittivity, dtype=np.float64)
+    d, eps = _thickness_and_permittivity(barrier, relative_permittivity, "bias_for_field")
+    if isinstance(layer, bool) or not isinstance(layer, (int, np.integer)) or not 0 <= layer < d.size:
+        raise ValueError(f"bias_for_field: layer must be an integer in 0..{d.size - 1}, got {layer!r}")
     # field_i = V (1/eps_i) / sum_j (d_j/eps_j); 1 MV/cm = 0.1 V/nm
     return np.asarray(field_MV_cm, dtype=np.float64) * 0.1 * eps[layer] * np.sum(d / eps)
 

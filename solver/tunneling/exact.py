@@ -18,13 +18,14 @@ import numpy as np
 from solver.errors import ComputationError
 from solver.tunneling._airy import anchors_and_coefficients
 from solver.tunneling._kernels import transfer_product, transmission_kernel
-from solver.tunneling.barrier import Barrier
+from solver.tunneling.barrier import Barrier, require_barrier
 from solver.units import EV_TO_J
 
 __all__ = ["transmission", "transfer_matrix"]
 
 
-def _energies_J(energy_eV) -> tuple[np.ndarray, tuple]:
+def energies_J(energy_eV) -> tuple[np.ndarray, tuple]:
+    """Energies (eV, any shape) as a contiguous 1-D SI array, and the input shape."""
     e = np.asarray(energy_eV, dtype=np.float64)
     return np.ascontiguousarray(e.ravel()) * EV_TO_J, e.shape
 
@@ -33,9 +34,21 @@ def _raise_bad_energy(e_J, j, where="transmission"):
     raise ValueError(f"{where}: energy_eV must be finite, got energy_eV[{j}] = {e_J[j] / EV_TO_J}")
 
 
-def _check_barrier(barrier) -> None:
-    if not isinstance(barrier, Barrier):
-        raise ValueError(f"transmission: barrier must be a solver.tunneling.Barrier, got {type(barrier).__name__}")
+def transmission_si(e_J, shape, thickness_m, u_start_J, u_end_J, mass_kg, lead_edge_J, lead_mass_kg,
+                    where="transmission", detail=""):
+    """T from SI layer arrays (as in `Barrier.layer_data_si`), reshaped to `shape`.
+
+    ValueError for a non-finite energy; ComputationError if a T outside [0, 1]
+    came out (never returned).
+    """
+    anchors, u, v = anchors_and_coefficients()
+    t, status, j = transmission_kernel(e_J, thickness_m, u_start_J, u_end_J, mass_kg, lead_edge_J, lead_mass_kg,
+                                       anchors, u, v)
+    if status == 1:
+        _raise_bad_energy(e_J, j, where)
+    if status == 2:
+        raise ComputationError(f"{where}: T = {t[j]} outside [0, 1] at energy_eV={e_J[j] / EV_TO_J!r}{detail}")
+    return t.reshape(shape)
 
 
 def transfer_matrix(barrier: Barrier, energy_eV):
@@ -45,10 +58,10 @@ def transfer_matrix(barrier: Barrier, energy_eV):
     exp(log_scale) * [[p11, p12], [p21, p22]], arrays shaped like `energy_eV`.
     Lengths are in nm, psi'/m in nm^-1 per m0 (see `_kernels`).
     """
-    _check_barrier(barrier)
-    e_J, shape = _energies_J(energy_eV)
+    require_barrier(barrier, "transfer_matrix")
+    e_J, shape = energies_J(energy_eV)
     if not np.isfinite(e_J).all():
-        _raise_bad_energy(e_J, int(np.flatnonzero(~np.isfinite(e_J))[0]))
+        _raise_bad_energy(e_J, int(np.flatnonzero(~np.isfinite(e_J))[0]), "transfer_matrix")
     d = barrier.layer_data_si
     anchors, u, v = anchors_and_coefficients()
     parts = transfer_product(e_J, d.thickness_m, d.u_start_J, d.u_end_J, d.mass_kg, anchors, u, v)
@@ -80,15 +93,8 @@ def transmission(barrier: Barrier, energy_eV) -> np.ndarray:
     ComputationError
         If a non-finite T were produced (never returned silently).
     """
-    _check_barrier(barrier)
-    e_J, shape = _energies_J(energy_eV)
+    require_barrier(barrier, "transmission")
+    e_J, shape = energies_J(energy_eV)
     d = barrier.layer_data_si
-    anchors, u, v = anchors_and_coefficients()
-    t, status, j = transmission_kernel(e_J, d.thickness_m, d.u_start_J, d.u_end_J, d.mass_kg,
-                                       d.lead_edge_J, d.lead_mass_kg, anchors, u, v)
-    if status == 1:
-        _raise_bad_energy(e_J, j)
-    if status == 2:
-        raise ComputationError(f"transmission: T = {t[j]} outside [0, 1] at energy_eV={e_J[j] / EV_TO_J!r} "
-                               f"for {barrier!r}")
-    return t.reshape(shape)
+    return transmission_si(e_J, shape, d.thickness_m, d.u_start_J, d.u_end_J, d.mass_kg, d.lead_edge_J,
+                           d.lead_mass_kg, detail=f" for {barrier!r}")

@@ -8,39 +8,18 @@ profiles from a Poisson solve, or as an independent check of the Airy form.
 """
 from __future__ import annotations
 
-import math
 from collections.abc import Callable
 
 import numpy as np
 
-from solver.errors import ComputationError
-from solver.tunneling._airy import anchors_and_coefficients
-from solver.tunneling._kernels import transmission_kernel
-from solver.tunneling.barrier import Barrier
+from solver.tunneling.barrier import Barrier, check_lead, require_barrier
+from solver.tunneling.exact import energies_J, transmission_si
 from solver.units import EV_TO_J, M0_KG, NM_TO_M
 
 __all__ = ["staircase_transmission", "staircase_transmission_profile"]
 
 
-def _energies_J(energy_eV, where):
-    e = np.asarray(energy_eV, dtype=np.float64)
-    return np.ascontiguousarray(e.ravel()) * EV_TO_J, e.shape
-
-
-def _check_lead(lead, side, where):
-    try:
-        edge, m = (float(v) for v in lead)
-    except (TypeError, ValueError):
-        raise ValueError(f"{where}: {side} must be a (band_edge_eV, mass) pair, got {lead!r}") from None
-    if not math.isfinite(edge):
-        raise ValueError(f"{where}: {side} band_edge_eV must be finite, got {edge}")
-    if not (m > 0 and math.isfinite(m)):
-        raise ValueError(f"{where}: {side} mass must be finite and > 0 (units of m0), got {m}")
-    return edge, m
-
-
 def _solve(e_J, shape, thickness_nm, u_eV, mass, left, right, where):
-    anchors, au, av = anchors_and_coefficients()
     thickness_m = np.ascontiguousarray(thickness_nm, dtype=np.float64) * NM_TO_M
     u_J = np.ascontiguousarray(u_eV, dtype=np.float64) * EV_TO_J
     mass_kg = np.ascontiguousarray(mass, dtype=np.float64) * M0_KG
@@ -48,13 +27,7 @@ def _solve(e_J, shape, thickness_nm, u_eV, mass, left, right, where):
     lead_mass_kg = np.array([left[1], right[1]]) * M0_KG
     for arr in (thickness_m, u_J, mass_kg, lead_edge_J, lead_mass_kg):
         arr.flags.writeable = False      # same array types as Barrier.layer_data_si: one compiled kernel
-    t, status, j = transmission_kernel(e_J, thickness_m, u_J, u_J, mass_kg, lead_edge_J, lead_mass_kg,
-                                       anchors, au, av)
-    if status == 1:
-        raise ValueError(f"{where}: energy_eV must be finite, got energy_eV[{j}] = {e_J[j] / EV_TO_J}")
-    if status == 2:
-        raise ComputationError(f"{where}: T = {t[j]} outside [0, 1] at energy_eV={e_J[j] / EV_TO_J!r}")
-    return t.reshape(shape)
+    return transmission_si(e_J, shape, thickness_m, u_J, u_J, mass_kg, lead_edge_J, lead_mass_kg, where)
 
 
 def staircase_transmission(
@@ -83,12 +56,11 @@ def staircase_transmission(
         T shaped like `energy_eV`, in [0, 1].
     """
     where = "staircase_transmission"
-    if not isinstance(barrier, Barrier):
-        raise ValueError(f"{where}: barrier must be a solver.tunneling.Barrier, got {type(barrier).__name__}")
+    require_barrier(barrier, where)
     if isinstance(n_slices, bool) or int(n_slices) != n_slices or n_slices < 1:
         raise ValueError(f"{where}: n_slices must be an integer >= 1, got {n_slices!r}")
     n_slices = int(n_slices)
-    e_J, shape = _energies_J(energy_eV, where)
+    e_J, shape = energies_J(energy_eV)
     frac = (np.arange(n_slices) + 0.5) / n_slices
     d = np.asarray(barrier.thickness_nm)
     u0 = np.asarray(barrier.u_start_eV)[:, None]
@@ -153,7 +125,7 @@ def staircase_transmission_profile(x_nm, u_eV, mass, left, right, energy_eV) -> 
     bad = np.flatnonzero(~((m.ravel() > 0) & np.isfinite(m.ravel())))
     if bad.size:
         raise ValueError(f"{where}: mass[{bad[0]}] must be finite and > 0 (units of m0), got {m.ravel()[bad[0]]}")
-    left = _check_lead(left, "left", where)
-    right = _check_lead(right, "right", where)
-    e_J, shape = _energies_J(energy_eV, where)
+    left = check_lead(left, "left", where)
+    right = check_lead(right, "right", where)
+    e_J, shape = energies_J(energy_eV)
     return _solve(e_J, shape, steps, 0.5 * (u[1:] + u[:-1]), m_slice, left, right, where)

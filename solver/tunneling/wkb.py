@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from solver.tunneling.barrier import require_barrier
 from solver.units import EV_TO_J, HBAR_J_S, M0_KG, NM_TO_M
 
 __all__ = ["wkb_transmission", "wkb_exponent"]
@@ -34,10 +35,11 @@ __all__ = ["wkb_transmission", "wkb_exponent"]
 _KAPPA_PER_M = np.sqrt(2.0 * M0_KG * EV_TO_J) / HBAR_J_S
 
 
-def _as_energy(energy_eV) -> np.ndarray:
+def _as_energy(energy_eV, where) -> np.ndarray:
     e = np.asarray(energy_eV, dtype=np.float64)
-    if not np.all(np.isfinite(e)):
-        raise ValueError(f"energy_eV must be finite, got {energy_eV!r}")
+    bad = np.flatnonzero(~np.isfinite(e))
+    if bad.size:
+        raise ValueError(f"{where}: energy_eV must be finite, got energy_eV[{bad[0]}] = {e.ravel()[bad[0]]}")
     return e
 
 
@@ -59,7 +61,8 @@ def wkb_exponent(barrier, energy_eV) -> np.ndarray:
     the exponent itself stays finite where T would underflow (thick barriers).
     The leads do not enter: only the layers are integrated.
     """
-    e = _as_energy(energy_eV)
+    require_barrier(barrier, "wkb_exponent")
+    e = _as_energy(energy_eV, "wkb_exponent")
     d_m, u0, u1, sqrt_m = _layer_terms(barrier)
     flat = e.reshape(-1, 1)
     b = u0[None, :] - flat  # U - E at the start of each layer, eV
@@ -99,7 +102,7 @@ def wkb_transmission(barrier, energy_eV) -> np.ndarray:
     Raises
     ------
     ValueError
-        If `energy_eV` holds NaN or infinite values.
+        If `barrier` is not a Barrier or `energy_eV` holds NaN or infinite values.
 
     Notes
     -----
@@ -108,7 +111,8 @@ def wkb_transmission(barrier, energy_eV) -> np.ndarray:
     `transmission` keeps. Its logarithm approaches the exact one for thick,
     opaque barriers (relative difference ~ 1/exponent).
     """
-    e = _as_energy(energy_eV)
+    require_barrier(barrier, "wkb_transmission")
+    e = _as_energy(energy_eV, "wkb_transmission")
     exponent = wkb_exponent(barrier, e)
     open_leads = (e > barrier.left[0]) & (e > barrier.right[0])
     return np.where(open_leads, np.exp(-exponent), 0.0)

@@ -238,6 +238,12 @@ def test_bad_input_and_failures(monkeypatch):
         current_density(b, 0.1, 0.0, 300.0, model="fast")
     with pytest.raises(ValueError, match="relative_permittivity layer 0"):
         with_bias(b, 1.0, (0.0,))
+    with pytest.raises(ValueError, match="bias_for_field: relative_permittivity must have one value per layer"):
+        bias_for_field(b, 0, 10.0, (3.9, 7.5))
+    with pytest.raises(ValueError, match=r"bias_for_field: layer must be an integer in 0..0, got 0.5"):
+        bias_for_field(b, 0.5, 10.0)
+    with pytest.raises(ValueError, match="current_density: barrier must be a solver.tunneling.Barrier"):
+        current_density("oxide", 0.1, 0.0, 300.0)
     with pytest.raises(ComputationError, match="non-finite"):
         current_density(b, 0.1, 0.0, 300.0, model=lambda bar, x: np.full(np.shape(x), np.nan))
     # an integration that cannot reach its tolerance raises, carrying the record

@@ -97,8 +97,8 @@ def test_profile_mass_forms():
         (dict(u_eV=[1.0, np.nan, 2.0]), r"u_eV\[1\] must be finite"),
         (dict(mass=[0.5, -0.1, 0.5]), r"mass\[1\] must be finite and > 0"),
         (dict(mass=[0.5, 0.5, 0.5, 0.5]), r"mass must be a scalar, one value per node"),
-        (dict(left=(0.0, 0.0)), r"left mass must be finite and > 0"),
-        (dict(right=(np.inf, 0.5)), r"right band_edge_eV must be finite"),
+        (dict(left=(0.0, 0.0)), r"left: mass must be finite and > 0"),
+        (dict(right=(np.inf, 0.5)), r"right: band_edge_eV must be finite"),
         (dict(energy_eV=np.nan), r"energy_eV must be finite"),
     ],
 )

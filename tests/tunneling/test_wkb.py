@@ -94,8 +94,13 @@ def test_leads_without_propagating_states_give_zero():
 
 def test_rejects_nan_energy():
     b = Barrier((2.0,), (3.0,), (3.0,), (0.5,), (0.0, 0.5), (0.0, 0.5))
-    with pytest.raises(ValueError, match="energy_eV must be finite"):
+    with pytest.raises(ValueError, match=r"wkb_transmission: energy_eV must be finite, got energy_eV\[1\] = nan$"):
         wkb_transmission(b, [1.0, np.nan])
+    # a long array still gives one line naming the first bad entry
+    with pytest.raises(ValueError, match=r"energy_eV\[150\] = inf$"):
+        wkb_transmission(b, np.where(np.arange(300) == 150, np.inf, 1.0))
+    with pytest.raises(ValueError, match="barrier must be a solver.tunneling.Barrier"):
+        wkb_transmission((2.0, 3.0), 1.0)
 
 
 def test_ratio_of_logs_approaches_one_for_thick_barriers():
