@@ -82,8 +82,8 @@ __all__ = [
 ]
 
 MAX_DEPTH_M = 20e-6
-DIELECTRIC_PENETRATION_M = 2e-9
-QUANTUM_GROWTH = 1.05  # growth cap in the channel's quantum region (inversion/accumulation layers)  # quantum box extends this far into the adjacent dielectric
+DIELECTRIC_PENETRATION_M = 2e-9  # the quantum box extends this far into the adjacent dielectric
+QUANTUM_GROWTH = 1.05  # growth cap in the channel's quantum region (inversion/accumulation layers)
 
 
 # ------------------------------------------------------------------ inputs (SI)

@@ -19,9 +19,23 @@ box the carriers are classical; between 50 % and 80 % of the box depth the
 quantum density is handed over smoothly to the classical one (weights cos^2),
 classical alone over the last 20 %, which keeps the Dirichlet box end from
 carving an artificial dip into carriers that are plentiful there (majority
-carriers). The 2-D densities of states are normalised so that a wide flat
-box gives back the classical N_c, N_v (bulk limit). Dopants are never
-quantized; carriers holding less than 1e3 per cm^2 in the box stay classical.
+carriers).
+
+Bulk-limit normalisation of the 2-D densities of states: a wide flat box
+holds sum_j g m_d sqrt(m_z) exp(-offset/kT) * 2.5094e19 cm^-3 (300 K) carriers
+per unit volume (the 3-D equivalent of the ladders), whereas the classical
+statistics use the data's N_c, N_v. Every ladder's 2-D DOS of one carrier type
+is multiplied by N_c (resp. N_v) over that equivalent, so the quantum density
+joins the classical one at the hand-over. For Si(100) electrons the factor is
+1.04 (the valley masses nearly reproduce N_c). For holes it is 3.76 at 300 K:
+the one-band hole ladders of the materials data (heavy 0.29/0.433, light
+0.20/0.169, split-off 0.23) describe the subband energies, not the strongly
+non-parabolic valence-band density of states behind N_v = 3.1e19 cm^-3, so in
+effect their 2-D DOS masses are raised 3.76-fold while their quantization
+masses are kept. The factors of a solve are reported as
+`Solution.electron_subband_dos_scale` and `hole_subband_dos_scale`. Dopants
+are never quantized; carriers holding less than 1e3 per cm^2 in the box stay
+classical.
 
 Self-consistency uses the predictor–corrector iteration of A. Trellakis,
 A. T. Galick, A. Pacelli, U. Ravaioli, J. Appl. Phys. 81, 7880 (1997): with the
@@ -32,10 +46,15 @@ next phi_k. The outer loop stops when max |phi_{k+1} - phi_k| is below
 `tolerance_V` (default 1e-8 V; each inner Newton solve is converged to 1e-9 V);
 an unconverged solve raises ConvergenceError with the residual history.
 
-Cylindrical cells use the radial operator with l = 0 and count the subbands
-as 2-D sheets on the channel surface (n(r) = R_ch N_j R_j(r)^2 with
-integral R^2 r dr = 1), which holds while the inversion layer is thin compared
-with the radius.
+Cylindrical cells use the radial operator with l = 0 and count each subband
+as a 2-D sheet wrapped around the axis at the state's mean radius
+<r>_j = integral R_j^2 r^2 dr (integral R_j^2 r dr = 1): the angular states
+l = 0, +-1, ... of a thin shell are as dense as the 2-D states of a strip
+2 pi <r>_j wide, so a subband with the 2-D sheet density N_j holds
+2 pi <r>_j N_j carriers per unit length, n(r) = <r>_j N_j R_j(r)^2. This holds
+while the subband's thermal angular spread is fine compared with the
+circumference (radius >> the inversion-layer width); populations are reported
+per area of the channel surface, N_j <r>_j / R_channel.
 
 Sign conventions of the outputs
 -------------------------------
@@ -127,6 +146,10 @@ class Solution:
                                       per reference area (C/cm^2) of the final potential
     newton_iterations                 Poisson Newton steps in total
     minority_carrier                  "electrons" (p-type channel) or "holes"
+    electron_subband_dos_scale, hole_subband_dos_scale
+                                      factor applied to every 2-D subband DOS of that
+                                      carrier so that a wide flat box reproduces the
+                                      data's N_c, N_v (module docstring); NaN when classical
 
     Per-area quantities of cylindrical cells are per area of the channel
     surface (radius channel_radius_nm). `subbands` lists the lowest
@@ -174,6 +197,8 @@ class Solution:
     charge_residual_unit: str = "C/cm^2"
     newton_iterations: int = 0
     minority_carrier: str = "electrons"
+    electron_subband_dos_scale: float = float("nan")
+    hole_subband_dos_scale: float = float("nan")
     extra: dict = field(default_factory=dict)
 
     @property
@@ -241,12 +266,11 @@ class _Valleys:
         self._ij = j
         self._wj = (x - xs[j]) / (xs[j + 1] - xs[j])
         self._box_volume = (s.vol_left + s.vol_right)[q]
-        # Bulk-limit consistency: a wide flat box must give back the classical
-        # density N_c F_1/2 (N_v for holes). The ladders' 3-D equivalent is
-        # sum g m_d sqrt(m_z) exp(-offset/kT) times the DOS prefactor; every
-        # 2-D DOS is scaled by N_c (N_v) over it. For Si(100) electrons the factor
-        # is ~1.04; the one-band hole ladders of the data need ~3.7 (their masses
-        # do not reproduce N_v).
+        # Bulk-limit normalisation (module docstring): a wide flat box must give
+        # back the classical density N_c F_1/2 (N_v for holes). The ladders' 3-D
+        # equivalent is sum g m_d sqrt(m_z) exp(-offset/kT) times the DOS
+        # prefactor 2 (2 pi m0 kT/h^2)^(3/2); every 2-D DOS is scaled by N_c (N_v)
+        # over it: 1.04 for Si electrons, 3.76 for the one-band hole ladders.
         kT_J = poisson.kT
         equiv = sum(v.degeneracy * v.dos_mass * math.sqrt(v.quantization_mass)
                     * math.exp(-v.offset_eV * EV_TO_J / kT_J) for v in bands)
@@ -262,12 +286,16 @@ class _Valleys:
         # potential energy at phi = 0: electrons E_c0 + offset, holes -(E_v0) + offset
         self.u0 = -chi if carrier == "e" else chi + gap
         self.sign = 1.0 if carrier == "e" else -1.0   # U = u0 - sign q phi
+        self.radial = radial
         self.scale = s.reference_area if radial else 1.0
         self.kT = poisson.kT
 
     def solve(self, phi_box, fermi_J):
-        """States of every valley set: list of (valley, E_J (electron energy
-        scale), psi2 (box nodes x k) as density per unit sheet density, dos)."""
+        """States of every valley set: list of (valley, E_J (this carrier's
+        energy scale), psi2 (box nodes x k) as density per unit sheet density
+        per reference area, dos per state). In a cylinder a state's 2-D DOS
+        counts per area at its mean radius <r>_j, i.e. dos * <r>_j / R_channel
+        per area of the channel surface (module docstring)."""
         u_base = (self.u0 - self.sign * Q_C * phi_box)[self.sub]
         ef = fermi_J if self.carrier == "e" else -fermi_J  # hole-energy scale
         out = []
@@ -284,7 +312,12 @@ class _Valleys:
                 k = min(k + max(4, k // 2), kmax)
             # next time: the states below the cutoff and two more
             d["count"] = min(max(4, int(np.count_nonzero(E < cutoff)) + 2), kmax)
-            out.append((v, E, self._on_box(psi * psi), d["dos"]))
+            psi2 = psi * psi
+            if self.radial:  # <r>_j = sum w r R^2 with sum w R^2 = 1
+                dos = d["dos"] * ((ham.weights_m * ham.x_m) @ psi2) / self.scale
+            else:
+                dos = np.full(E.size, d["dos"])
+            out.append((v, E, self._on_box(psi2), dos))
         return out
 
     def _on_box(self, psi2_sub):
@@ -364,7 +397,7 @@ class _QuantumChannel:
             return np.zeros(0), np.zeros((self.nodes.size, 0)), np.zeros(0)
         E = np.concatenate([s[1] for s in states])
         psi2 = np.concatenate([s[2] for s in states], axis=1)
-        dos = np.concatenate([np.full(s[1].size, s[3]) for s in states])
+        dos = np.concatenate([s[3] for s in states])
         return E, psi2, dos
 
     def charge_model(self, states, phi_ref, frozen=False) -> QuantumCharge:
@@ -491,7 +524,10 @@ def solve(case, gate_V=None, quantum=True, statistics="fermi-dirac") -> Solution
     when the solve does not converge."""
     if gate_V is None:
         gate_V = case.bias.gate_V
-    gate_V = float(gate_V)
+    try:
+        gate_V = float(gate_V)
+    except (TypeError, ValueError):
+        raise ValueError(f"gate_V must be a number of volts, got {gate_V!r}") from None
     if not math.isfinite(gate_V):
         raise ValueError(f"gate_V must be finite, got {gate_V}")
     prep = prepare(case, statistics, bool(quantum))
@@ -717,6 +753,8 @@ def _solution(prep, gate_V, phi, states, record, iterations, newton_total, quant
         charge_centroid_nm=centroid, wavefunctions=_readonly(wf), subband_valleys=tuple(valleys_out),
         convergence=record, charge_residual=residual, newton_iterations=int(newton_total),
         minority_carrier=minority,
+        electron_subband_dos_scale=float(qc.electrons.dos_factor) if qc is not None else float("nan"),
+        hole_subband_dos_scale=float(qc.holes.dos_factor) if qc is not None else float("nan"),
     )
 
 

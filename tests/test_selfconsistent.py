@@ -11,6 +11,7 @@ from scipy.special import ai_zeros
 
 from solver.case import parse_case
 from solver.errors import ConvergenceError
+from solver.schrodinger import radial_eigenstates
 from solver.selfconsistent import Solution, prepare, solve, solve_structure
 from solver.units import EV_TO_J, HBAR_J_S, M0_KG, Q_C
 
@@ -197,6 +198,69 @@ def test_cylindrical_cells_solve(core):
     assert 0.5 < sol.charge_centroid_nm < 4.0
     classical = solve(case, 2.0, quantum=False)
     assert classical.charge_centroid_nm < sol.charge_centroid_nm
+
+
+def test_shell_counting_rule_against_the_angular_momentum_sum():
+    # A thin cylindrical shell (hard walls a < r < b, flat potential): the exact count of
+    # its states, separation of variables R_nl(r) e^{il theta} e^{ikz} summed over
+    # l = 0, +-1, ... with the 1-D density of states along z (Boltzmann occupation), against
+    # the sheet rule of solver.selfconsistent: each l = 0 subband as a 2-D sheet
+    # m kT/(pi hbar^2) exp(-E_n/kT) wrapped at its mean radius <r>_n. The channel radius
+    # b in place of <r>_n would overcount by (b - <r>)/<r>, 8 % here.
+    kT = 0.0258520  # eV at 300 K (physics-data sheet Sec. 1)
+    k_ev_nm2 = HBAR_J_S**2 / (2 * M0_KG) / EV_TO_J * 1e18
+    m, a, b = 0.2, 17.0, 20.0
+    r = np.linspace(a, b, 601)
+    exact = 0.0
+    for ell in range(400):
+        E, _ = radial_eigenstates(r, np.zeros(r.size), np.full(r.size, m), 4, angular_momentum=ell)
+        # 2 spins x sqrt(m m0 kT / (2 pi hbar^2)) per nm per state, +l and -l for l >= 1
+        term = (1 if ell == 0 else 2) * 2 * np.sqrt(m * kT / (4 * np.pi * k_ev_nm2)) * np.exp(-E / kT).sum()
+        exact += term
+        if term < 1e-12 * exact:
+            break
+    E0, R = radial_eigenstates(r, np.zeros(r.size), np.full(r.size, m), 4)
+    mean_r = np.trapezoid(R**2 * (r**2)[:, None], r, axis=0) / np.trapezoid(R**2 * r[:, None], r, axis=0)
+    sheet = m * kT / (2 * np.pi * k_ev_nm2) * np.exp(-E0 / kT)   # per nm^2
+    assert (2 * np.pi * mean_r * sheet).sum() == pytest.approx(exact, rel=3e-3)
+    assert (2 * np.pi * b * sheet).sum() / exact > 1.07
+
+
+def test_cylindrical_subband_populations_follow_the_sheet_rule():
+    # Ando, Fowler, Stern 1982, Sec. III: N_j = g m_d m0 kT/(pi hbar^2) ln(1 + exp((E_F - E_j)/kT))
+    # per area at the state's mean radius (the shell rule above), reported per area of the
+    # channel surface: N_j <r>_j / R_channel; 2-fold ladder m_d = 0.19 (physics-data Sec. 2.2)
+    geometry = '[geometry]\nkind = "cylindrical"\nchannel_radius_nm = 10.0'
+    sol = solve(mos(1e17, geometry=geometry), 2.0, quantum=True)
+    kT = 1.380649e-23 * 300.0  # J (scipy.constants.k, exact)
+    dos = 2 * 0.19 * M0_KG / (math.pi * HBAR_J_S**2) * sol.electron_subband_dos_scale
+    x = np.asarray(sol.x_nm)
+    checked = 0
+    for j, (valley, energy, population) in enumerate(sol.subbands):
+        if valley != "2-fold" or population < 1e-3 * sol.inversion_charge_cm2:
+            continue
+        psi2 = sol.wavefunctions[:, j]
+        mean_r = np.trapezoid(psi2 * x**2, x) / np.trapezoid(psi2 * x, x)
+        sheet = dos * kT * math.log1p(math.exp((sol.fermi_level_eV - energy) * EV_TO_J / kT)) * 1e-4
+        assert population == pytest.approx(sheet * mean_r / 10.0, rel=5e-3)  # quadrature of the stored |psi|^2
+        assert mean_r < 10.0
+        checked += 1
+    assert checked >= 2
+    n_sub = sum(p for v, _, p in sol.subbands if v in ("2-fold", "4-fold"))
+    assert n_sub == pytest.approx(sol.inversion_charge_cm2, rel=0.02)
+
+
+def test_subband_dos_scale_reproduces_the_data_effective_densities(case17):
+    # bulk-limit normalisation (solver.selfconsistent): N_c,v / (2 (2 pi m0 kT/h^2)^1.5
+    # sum g m_d sqrt(m_z) exp(-offset/kT)), with 2.5094e19 cm^-3 at 300 K (physics-data
+    # sheet Sec. 1) and the materials data's Si ladders and N_c = 2.86e19, N_v = 3.10e19
+    sol = solve(case17, 1.0, quantum=True)
+    electrons = 2 * 0.190 * math.sqrt(0.916) + 4 * 0.417 * math.sqrt(0.190)
+    holes = (0.433 * math.sqrt(0.29) + 0.169 * math.sqrt(0.20)
+             + 0.23 * math.sqrt(0.23) * math.exp(-0.044 / 0.0258520))
+    assert sol.electron_subband_dos_scale == pytest.approx(2.86e19 / (2.5094e19 * electrons), rel=2e-4)
+    assert sol.hole_subband_dos_scale == pytest.approx(3.10e19 / (2.5094e19 * holes), rel=2e-4)
+    assert math.isnan(solve(case17, 1.0, quantum=False).hole_subband_dos_scale)
 
 
 def test_quantized_majority_carriers_recover_the_bulk_density(case17):
