@@ -27,7 +27,6 @@ import time  # noqa: E402
 from dataclasses import replace  # noqa: E402
 from pathlib import Path  # noqa: E402
 
-import numpy as np  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 

@@ -1,6 +1,5 @@
 """The cell stage: threshold shift, charge balance, ISPP, erase, retention, bake equivalences."""
 import math
-from dataclasses import replace
 
 import numpy as np
 import pytest
