@@ -4,7 +4,8 @@ Study: one row per point: the axis values, status, every scalar output, and
 the error of a failed point. Lines starting with '#' before the header give
 the file, the units of each column and what was left out (profiles).
 Run: one CSV per stage and axis (datasets sharing that axis as columns) plus
-one per stage for its scalars, named OUT-<stage>-<axis>.csv.
+one per stage for its scalars, named OUT-<stage>-<axis>.csv; arrays of two or
+more axes are named in the comment lines and left in the HDF5 file.
 """
 from __future__ import annotations
 
@@ -104,11 +105,14 @@ def _run_tables(r, path):
     """{suffix: (comments, header, rows)} for a run file."""
     out = {}
     for gname, entries in r["groups"].items():
+        arrays = [n for n, d in entries.items() if np.asarray(d.values).ndim > 1]
+        left_out = ([f"not in these tables (arrays of 2 or more axes; read the HDF5 file): {', '.join(arrays)}"]
+                    if arrays else [])
         scalars = [(n, d) for n, d in entries.items() if np.asarray(d.values).ndim == 0]
         if scalars:
             rows = [[n, _num(d.values) if np.asarray(d.values).dtype.kind in "iuf" else str(d.values), d.units,
                      d.description] for n, d in scalars]
-            out[f"{gname}"] = ([f"tunnelstack run {path}, stage {gname}: scalars"],
+            out[f"{gname}"] = ([f"tunnelstack run {path}, stage {gname}: scalars"] + left_out,
                                ["name", "value", "units", "description"], rows)
         by_dim: dict[str, list] = {}
         for n, d in entries.items():
@@ -121,7 +125,7 @@ def _run_tables(r, path):
             rows = [[_num(c[i]) if c.dtype.kind in "iuf" else str(c[i]) for c in cols]
                     for i in range(len(cols[0]))]
             comments = [f"tunnelstack run {path}, stage {gname}, axis {dim}",
-                        "units: " + ", ".join(f"{n} [{d.units}]" for n, d in items)]
+                        "units: " + ", ".join(f"{n} [{d.units}]" for n, d in items)] + left_out
             out[f"{gname}-{dim}"] = (comments, header, rows)
     return out
 

@@ -36,6 +36,18 @@ def _parse_at(items) -> dict:
     return out
 
 
+def _check_quantities(wanted, known, path) -> None:
+    from solver.errors import CaseError
+
+    for q in wanted or ():
+        if q not in known:
+            import difflib
+
+            close = difflib.get_close_matches(q, known, n=1)
+            hint = f" Did you mean {close[0]!r}?" if close else ""
+            raise CaseError(f"--quantity {q!r}: not in {path} (outputs: {', '.join(known)}).{hint}")
+
+
 def run(args) -> int:
     from solver.errors import CaseError
     from solver.store import StoreError, file_kind, read_run, read_study
@@ -51,21 +63,24 @@ def run(args) -> int:
 
     if kind == "study":
         d = read_study(path)
-        known = list(d.outputs) + list(d.profiles)
-        for q in args.quantity or ():
-            if q not in known:
-                import difflib
-
-                close = difflib.get_close_matches(q, known, n=1)
-                hint = f" Did you mean {close[0]!r}?" if close else ""
-                raise CaseError(f"--quantity {q!r}: not in {path} (outputs: {', '.join(known)}).{hint}")
+        _check_quantities(args.quantity, list(d.outputs) + list(d.profiles), path)
         keys = [a.key for a in d.axes]
-        for key in list(at) + ([args.over] if args.over else []):
-            if key not in keys:
-                raise CaseError(f"--at/--over {key}: not an axis of {path} (axes: {', '.join(keys)})")
+        further = keys[2:] if d.mode == "grid" else []
+        for key in at:
+            if key not in further:
+                allowed = ", ".join(further) if further else "none (only a grid of more than two axes has them)"
+                raise CaseError(f"--at {key}: not a further axis of {path} beyond the two drawn; "
+                                f"allowed: {allowed}")
+        if args.over:
+            lines_over = keys[:2] if d.mode == "grid" and len(keys) > 1 else []
+            if args.over not in lines_over:
+                allowed = ", ".join(lines_over) if lines_over else "none (a grid of two or more axes needs it)"
+                raise CaseError(f"--over {args.over}: not allowed for {path}; allowed: {allowed}")
         paths = plot_study(d, out_dir, args.quantity, at=at, over=args.over)
     else:
-        paths = plot_run(read_run(path), out_dir, path.stem, args.quantity)
+        r = read_run(path)
+        _check_quantities(args.quantity, [n for entries in r["groups"].values() for n in entries], path)
+        paths = plot_run(r, out_dir, path.stem, args.quantity)
     if not paths:
         print(f"{path}: nothing to draw")
         return 0

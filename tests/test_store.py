@@ -185,10 +185,13 @@ def test_run_file_commands(tmp_path, capsys):
     assert lines[2] == "gate_V,current_A_cm2" and lines[3] == "1.0,1e-12"
     scalars = (tmp_path / "out-bands.csv").read_text()
     assert "fermi_level_eV,-0.25,eV,channel Fermi level" in scalars
+    assert "# not in these tables (arrays of 2 or more axes; read the HDF5 file): density_cm3" in scalars
 
     assert main(["plot", str(path), "--output-dir", str(tmp_path / "figs")]) == 0
     names = sorted(p.name for p in (tmp_path / "figs").iterdir())
     assert "run-current-current_A_cm2.png" in names and "run-bands-potential_V.png" in names
+    assert main(["plot", str(path), "--quantity", "curent_A_cm2"]) == 2
+    assert "Did you mean 'current_A_cm2'" in capsys.readouterr().err
 
     foreign = tmp_path / "foreign.h5"
     with h5py.File(foreign, "w"):

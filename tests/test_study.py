@@ -650,6 +650,11 @@ def test_show_plot_export_of_study_with_failures(tmp_path, capsys):
     assert {"s-capacitance_F_m2-map.png", f"s-field_V_nm-over-{THICK}.png", "s-u_eV-profiles.png"} <= names
     assert main(["plot", str(path), "--quantity", "field_nm"]) == 2
     assert "Did you mean 'field_V_nm'" in capsys.readouterr().err
+    # --over names one of the two drawn axes; --at only a further axis (none in a 2-axis grid)
+    assert main(["plot", str(path), "--output-dir", str(figs), "--over", "temperature_K"]) == 2
+    assert f"allowed: {THICK}, {GATE}" in capsys.readouterr().err
+    assert main(["plot", str(path), "--output-dir", str(figs), "--at", f"{GATE}=1"]) == 2
+    assert "allowed: none" in capsys.readouterr().err
 
     zpath = tmp_path / "z.h5"
     run_file(zpath, PlateCase(study=Spec((Axis(GATE, (1e-3, 1e-2, 1e-1, 1.0), "log"),))))

@@ -112,6 +112,16 @@ def plot_study(d, out_dir, quantities=None, at=None, stem=None, over=None) -> li
     return paths
 
 
+def _line_axes(ax, x, xname, xunits, spacing, ylabel, logy) -> None:
+    """Axis labels and log scales of a line plot over one axis."""
+    ax.set_xlabel(_label(xname, xunits))
+    ax.set_ylabel(ylabel)
+    if logy:
+        ax.set_yscale("log")
+    if axis_wants_log(x, xunits, spacing):
+        ax.set_xscale("log")
+
+
 def _family(d, name, units, grid, log, out_dir, stem, title, notes, over=None, max_lines=12):
     """Lines over one of the first two axes of a grid, one per value of the other."""
     keys = [d.axes[0].key, d.axes[1].key]
@@ -125,12 +135,7 @@ def _family(d, name, units, grid, log, out_dir, stem, title, notes, over=None, m
     for i in rows:
         ax.plot(x, y_all[i], marker="o", markersize=3, linewidth=1.1,
                 label=f"{la.values[i]:.4g} {la.units if la.units != '1' else ''}".strip())
-    ax.set_xlabel(_label(xa.key, xa.units))
-    ax.set_ylabel(label)
-    if logy:
-        ax.set_yscale("log")
-    if axis_wants_log(x, xa.units, xa.spacing):
-        ax.set_xscale("log")
+    _line_axes(ax, x, xa.key, xa.units, xa.spacing, label, logy)
     ax.legend(title=la.key, fontsize=7, title_fontsize=7)
     if notes:
         title += "\nat " + ", ".join(notes)
@@ -145,12 +150,7 @@ def _line(d, name, units, values, log, out_dir, stem, title):
     y, label, logy = _prepare(values, log, name, units)
     fig, ax = new_figure(figsize=(6.0, 4.0))
     ax.plot(x, y, marker="o", markersize=3.5, linewidth=1.2)
-    ax.set_xlabel(_label(axis.key, axis.units))
-    ax.set_ylabel(label)
-    if logy:
-        ax.set_yscale("log")
-    if axis_wants_log(x, axis.units, axis.spacing):
-        ax.set_xscale("log")
+    _line_axes(ax, x, axis.key, axis.units, axis.spacing, label, logy)
     if d.mode == "zip" and len(d.axes) > 1:
         others = ", ".join(a.key for a in d.axes[1:])
         title += f"\nzipped with {others}"
@@ -238,12 +238,7 @@ def plot_run(r: dict, out_dir, stem: str, quantities=None) -> list[str]:
             y, label, logy = _prepare(arr, wants_log(name, data.units), name, data.units)
             fig, ax = new_figure(figsize=(6.0, 4.0))
             ax.plot(x, y, linewidth=1.2)
-            ax.set_xlabel(_label(xlabel, xunits))
-            ax.set_ylabel(label)
-            if logy:
-                ax.set_yscale("log")
-            if axis_wants_log(x, xunits, spacing):
-                ax.set_xscale("log")
+            _line_axes(ax, x, xlabel, xunits, spacing, label, logy)
             ax.set_title(f"{gname}: {name}", fontsize=9)
             ax.grid(True, which="both", alpha=0.3)
             paths.append(save(fig, out_dir / f"{stem}-{_safe(gname)}-{_safe(name)}.png"))
