@@ -272,13 +272,11 @@ def murphy_good_v(f):
 def murphy_good_t(f):
     """Barrier function t(f) = v - (4/3) f dv/df, exact (closed form, see `murphy_good_v`).
 
-    t(0) = 1. Check values: t(0.05/0.1/0.2/0.3/0.5) =
+    t(0) = 1, t(1) = pi/(2 sqrt 2). Check values: t(0.05/0.1/0.2/0.3/0.5) =
     1.01325/1.02252/1.03746/1.04989/1.07068 (physics-data sheet Sec. 7).
-    Float for scalar `f`, else an array; f must be < 1.
+    Float for scalar `f`, else an array.
     """
     arr = _check_f(f)
-    if np.any(arr >= 1.0):
-        raise ValueError("scaled barrier field f must be < 1 for t(f)")
     return _scalar_or_array(_barrier_functions(arr)[1], arr)
 
 
