@@ -155,6 +155,12 @@ def band_groups(solution, case):
             "iterations": _data(int(solution.iterations), "1", (), "self-consistent iterations"),
         },
     }
+    if solution.quantum:
+        for carrier in ("electron", "hole"):
+            groups["summary"][f"{carrier}_subband_dos_scale"] = _data(
+                float(getattr(solution, f"{carrier}_subband_dos_scale")), "1", (),
+                f"factor on every {carrier} subband's 2-D density of states so that a wide "
+                "flat box reproduces the bulk effective density of states")
     lay = ("layer",)
     groups["layers"] = {
         "layer": _data(np.array(solution.layer_names, dtype=object), "1", lay, "layer name, gate first"),
@@ -212,6 +218,10 @@ def _format_summary(solution, case) -> str:
         total = sum(p for _, _, p in solution.subbands)
         lines.append(f"({len(shown)} of {len(solution.subbands)} subbands listed; "
                      f"all hold {total:.4e} cm^-2; the store has every one)")
+    if solution.quantum:
+        lines.append(f"subband densities of states scaled to the bulk N_c, N_v of the data: "
+                     f"electrons x{solution.electron_subband_dos_scale:.3f}, "
+                     f"holes x{solution.hole_subband_dos_scale:.3f}")
     return "\n".join(lines)
 
 

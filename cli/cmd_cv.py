@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from cli.cmd_bands import command_line
+from cli.cmd_bands import _data, command_line
 from cli.common import add_quiet, info, table
 from solver.units import EPSILON0_F_M, SIO2_PERMITTIVITY_FOR_EOT
 
@@ -36,16 +36,13 @@ def _sweep(case, args):
     stop = case.bias.sweep_stop_V if args.to_V is None else args.to_V
     count = case.bias.sweep_count if args.count is None else args.count
     if not (np.isfinite(start) and np.isfinite(stop)) or start == stop:
-        raise CaseError(f"--from/--to: need two different finite voltages, got {start:g} and {stop:g}")
+        where = ("--from/--to" if args.from_V is not None or args.to_V is not None
+                 else "bias.sweep_start_V/sweep_stop_V")
+        raise CaseError(f"{where}: need two different finite voltages, got {start:g} and {stop:g}")
     if count < 3:
-        raise CaseError(f"--count: need at least 3 gate voltages, got {count}")
+        where = "--count" if args.count is not None else "bias.sweep_count"
+        raise CaseError(f"{where}: the C–V sweep needs at least 3 gate voltages, got {count}")
     return np.linspace(start, stop, count)
-
-
-def _data(values, units, dims=(), description=""):
-    from solver.store import Data
-
-    return Data(values, units, dims, description)
 
 
 def cv_groups(classical, quantum):

@@ -123,3 +123,15 @@ def test_bands_cylindrical_cell_quiet(tmp_path, capsys):
     assert main(["bands", str(case), "--figure", str(fig), "--quiet"]) == 0
     assert capsys.readouterr().out == ""
     assert fig.read_bytes()[:8] == PNG_MAGIC
+
+
+def test_cv_names_the_case_key_when_the_sweep_comes_from_the_case(tmp_path):
+    # a two-point sweep is a valid case (bias.sweep_count >= 2) but too short for C–V:
+    # the message names the key the value came from, not an option the user did not give
+    short = tmp_path / "short.toml"
+    text = MOS.read_text()
+    assert "sweep_count = 51" in text
+    short.write_text(text.replace("sweep_count = 51", "sweep_count = 2"))
+    proc = _run_cli("cv", str(short), "--quiet")
+    assert proc.returncode == 2
+    assert proc.stderr.strip().count("\n") == 0 and "bias.sweep_count" in proc.stderr

@@ -90,8 +90,7 @@ def band_diagram(path, *, x_nm, conduction_band_eV, valence_band_eV, fermi_level
         zx = (float(sx.min()), float(sx.max()))
         inside = (x >= zx[0]) & (x <= zx[1]) & np.isfinite(ec)
         levels = [sb.energy_eV for sb in subbands] + [fermi_level_eV]
-        e_lo = min([float(ec[inside].min())] if inside.any() else [] + levels) - 0.05
-        e_lo = min(e_lo, min(levels) - 0.05)
+        e_lo = min(levels + ([float(ec[inside].min())] if inside.any() else [])) - 0.05
         e_hi = max(levels) + 0.15
         _draw(ax, x, ec, ev, fermi_level_eV, spans, subbands, None, zx, (e_lo, e_hi), labels=False)
         ax.set_xlabel(xlabel)
