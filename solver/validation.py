@@ -343,10 +343,12 @@ GROUPS = tuple(_GROUP_FUNCS)
 
 
 def run_checks(groups=None) -> tuple[CheckResult, ...]:
-    """Run the checks of `groups` (names from GROUPS; None = all), in order.
+    """Run the checks of `groups` (names from GROUPS, or one name; None = all), in order.
 
     Raises ValueError for an unknown group name.
     """
+    if isinstance(groups, str):
+        groups = (groups,)
     names = GROUPS if not groups else tuple(groups)
     for n in names:
         if n not in _GROUP_FUNCS:

@@ -63,6 +63,7 @@ def test_failing_check_exits_1(monkeypatch, capsys):
 def test_unknown_group_and_row_rules():
     with pytest.raises(ValueError, match="unknown"):
         run_checks(["nope"])
+    assert {r.group for r in run_checks("wkb")} == {"wkb"}  # one name, not its letters
     r = validation._row("g", "c", float("nan"), 1.0, 1.0, "s")
     assert r.failed and r.as_dict()["computed"] is None
     assert validation._row("g", "c", 0.0, 0.0, 0.0, "s").status == "pass"
