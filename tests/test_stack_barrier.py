@@ -231,6 +231,14 @@ def test_bad_inputs_name_the_field():
     data = make_stack()
     with pytest.raises(ValueError, match="through must be one of"):
         stack_barrier(data, stack_state(data, stack_V=5.0), through="everything")
+    with pytest.raises(ValueError, match="temperature_K must be a finite number > 0, got 0.0"):
+        make_stack(temperature_K=0.0)
+    with pytest.raises(ValueError, match="gate_affinity_eV must be a finite number"):
+        make_stack(gate_kind="semiconductor")
+    with pytest.raises(ValueError, match="metal_fermi_depth_eV must be a finite number > 0"):
+        stack_barrier(data, stack_state(data, stack_V=5.0), metal_fermi_depth_eV=-1.0)
+    with pytest.raises(ValueError, match="image_slices must be an integer >= 1"):
+        stack_barrier(data, stack_state(data, stack_V=5.0), image_force=True, image_slices=0)
 
 
 def test_from_shipped_case():

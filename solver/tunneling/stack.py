@@ -199,6 +199,21 @@ class StackData:
                 raise ValueError(f"layer {i}: charge_cm2 and electron_affinity_eV must be finite")
         if self.gate_kind not in ("metal", "semiconductor"):
             raise ValueError(f"gate kind must be 'metal' or 'semiconductor', got {self.gate_kind!r}")
+        if self.gate_kind == "semiconductor":
+            for name in ("gate_affinity_eV", "gate_band_gap_eV", "gate_electron_mass", "gate_hole_mass"):
+                v = getattr(self, name)
+                if v is None or not math.isfinite(v) or (name != "gate_affinity_eV" and not v > 0):
+                    raise ValueError(f"{name} must be a finite number (> 0 for a gap or mass) for a "
+                                     f"semiconductor gate, got {v!r}")
+        for name in ("temperature_K", "channel_permittivity", "channel_band_gap_eV", "channel_conduction_dos_cm3",
+                     "channel_valence_dos_cm3", "channel_electron_mass", "channel_hole_mass"):
+            v = getattr(self, name)
+            if not (math.isfinite(v) and v > 0):
+                raise ValueError(f"{name} must be a finite number > 0, got {v!r}")
+        for name in ("channel_acceptors_cm3", "channel_donors_cm3"):
+            v = getattr(self, name)
+            if not (math.isfinite(v) and v >= 0):
+                raise ValueError(f"{name} must be a finite number >= 0, got {v!r}")
         if self.geometry not in ("planar", "cylindrical"):
             raise ValueError(f"geometry must be 'planar' or 'cylindrical', got {self.geometry!r}")
         object.__setattr__(self, "channel_radius_nm", float(self.channel_radius_nm))
@@ -853,6 +868,10 @@ def stack_barrier(data: StackData, state: StackState, *, carrier: str = "electro
     """
     _check_choice("through", through, THROUGH)
     _check_choice("image_method", image_method, ("linear", "staircase"))
+    if image_force and not (isinstance(image_slices, (int, np.integer)) and image_slices >= 1):
+        raise ValueError(f"image_slices must be an integer >= 1, got {image_slices!r}")
+    if data.gate_kind == "metal" and not (math.isfinite(metal_fermi_depth_eV) and metal_fermi_depth_eV > 0):
+        raise ValueError(f"metal_fermi_depth_eV must be a finite number > 0, got {metal_fermi_depth_eV!r}")
     emission_sign(carrier, emitter)  # checks both names
     n = data.count
     if state.cylindrical != data.cylindrical:
