@@ -1,5 +1,5 @@
 """Finite-volume Poisson equation of a gate stack, solved by Newton's method
-with the analytic Jacobian and an exact line search.
+with the analytic Jacobian and a line search on the convex functional.
 
 Energy convention (one absolute scale, the vacuum level of the neutral
 channel at phi = 0):
@@ -35,8 +35,10 @@ Q_i the charge in the box of node i (carriers, ionized dopants, sheet
 charges, interface traps, and a quantum density supplied by the
 self-consistent loop). Every Q_i decreases with phi_i and depends on phi_i
 only, so G is the gradient of a strictly convex functional; Newton's
-direction with an exact line search on that functional (the directional
-derivative d.G(phi + t d) is increasing in t) converges from any start. The
+direction with a line search on that functional (the directional derivative
+g(t) = d.G(phi + t d) is increasing in t; the step is cut back to where |g(t)|
+is below a tenth of |g(0)|, by safeguarded regula falsi) converges from any
+start. Steps below 1e-4 V are taken in full (quadratic convergence region). The
 Jacobian L - diag(dQ/dphi) is a symmetric positive-definite tridiagonal
 matrix, solved by the Thomas algorithm.
 

@@ -141,7 +141,10 @@ class Solution:
                                       quantum box, trapezoid integral over x_nm = 1
     subband_valleys                   valley label per subband (column order)
     convergence                       ConvergenceRecord of the self-consistent loop
-                                      (residual history: max |phi_{k+1} - phi_k| in V)
+                                      (residual history: max |phi_{k+1} - phi_k| in V);
+                                      for a classical solve that of the Poisson Newton
+                                      iteration (last updates in V), and `iterations`
+                                      counts its Newton steps
     charge_residual                   max over boxes of |electric flux out - charge in|
                                       per reference area (C/cm^2) of the final potential
     newton_iterations                 Poisson Newton steps in total

@@ -1,10 +1,11 @@
 """Quasi-static C–V against the classical MOS closed form."""
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
 
-from solver.case import parse_case
+from solver.case import load_case, parse_case
 from solver.cv import capacitance_voltage
 from solver.units import BOLTZMANN_J_K, EPSILON0_F_M, EV_TO_J, Q_C
 
@@ -86,13 +87,6 @@ def test_cv_rejects_bad_sweeps(case):
 def test_coarse_sweep_never_exceeds_stack_capacitance():
     # quasi-static C = dQ/dV is bounded by the stack capacitance (series-capacitor argument,
     # Sze & Ng 2007, Sec. 4.3); a finite-difference estimate must respect that on any sweep
-    from pathlib import Path
-
-    import numpy as np
-
-    from solver.case import load_case
-    from solver.cv import capacitance_voltage
-
     case = load_case(Path(__file__).resolve().parent.parent / "cases" / "mos-capacitor.toml")
     res = capacitance_voltage(case, np.linspace(-1.5, 2.0, 8), quantum=True)
     assert np.all(res.capacitance_F_cm2 <= res.oxide_capacitance_F_cm2 * (1 + 1e-9))

@@ -268,8 +268,9 @@ def test_quantized_majority_carriers_recover_the_bulk_density(case17):
     # classical density N_v F_1/2 (Ando, Fowler, Stern 1982, Sec. III; the ladders' 2-D
     # DOS are normalised to the data's N_c, N_v); next to the wall the dark space remains
     # (Stern, Phys. Rev. B 5, 4891 (1972))
-    q = solve(case17, -0.746, quantum=True)      # about flat band (V_FB = -0.746 V)
-    c = solve(case17, -0.746, quantum=False)
+    v_fb = solve(case17, 0.0, quantum=False).flatband_V  # Phi_m - Phi_s (test_electrostatics)
+    q = solve(case17, v_fb, quantum=True)
+    c = solve(case17, v_fb, quantum=False)
     depth = np.array(q.x_nm) - 5.0
     mid = (depth > 4.0) & (depth < 9.0)
     ratio = np.array(q.hole_density_cm3)[mid] / np.array(c.hole_density_cm3)[mid]

@@ -127,7 +127,7 @@ def test_effective_dos_and_2d_dos_constants():
     # physics-data sheet Sec. 1 (computed from CODATA): 2 (2 pi m0 kT / h^2)^1.5 at
     # 300 K = 2.5094e19 cm^-3; m0/(pi hbar^2) = 4.1773e14 cm^-2 eV^-1
     assert_allclose(effective_dos_m3(1.0, 300.0) * 1e-6, 2.5094e19, rtol=1e-4)
-    assert_allclose(subband_dos_m2_J(1, 1.0) * 1e-4 * EV_TO_J / 2, 4.1773e14 / 2, rtol=1e-4)
+    assert_allclose(subband_dos_m2_J(1, 1.0) * 1e-4 * EV_TO_J, 4.1773e14, rtol=1e-4)
 
 
 # ---------------------------------------------------------------- band densities
