@@ -381,14 +381,15 @@ def fowler_nordheim_fit(field_MV_cm, current_A_cm2) -> FowlerNordheimFit:
     """Least-squares line through ln(J/F^2) against 1/F (F in MV/cm, J in A/cm^2).
 
     Returns slope (-B, MV/cm), intercept, and the A (A/V^2) and B (MV/cm)
-    they imply. Needs at least two points with J > 0 and F > 0.
+    they imply. Needs at least two distinct fields, every J > 0 and F > 0.
     """
     f = _as_field(field_MV_cm, allow_zero=False).ravel()
     j = np.asarray(current_A_cm2, dtype=np.float64).ravel()
     if j.shape != f.shape:
         raise ValueError(f"current_A_cm2 must have one value per field, got {j.size} for {f.size}")
-    if f.size < 2:
-        raise ValueError("fowler_nordheim_fit needs at least two (field, current) points")
+    if np.unique(f).size < 2:
+        raise ValueError(f"fowler_nordheim_fit needs at least two distinct fields, got {f.size} point(s) "
+                         f"at {np.unique(f).size} field(s)")
     if not np.all(np.isfinite(j) & (j > 0)):
         raise ValueError("current_A_cm2 must be finite and > 0 for a Fowler–Nordheim plot")
     x = 1.0 / f

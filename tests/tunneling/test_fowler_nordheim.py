@@ -93,6 +93,10 @@ def test_fn_plot_recovers_slope_and_barrier():
     assert fit.a_A_V2 == pytest.approx(1.147e-6, rel=5e-4)
     assert fit.rms_residual < 1e-12
     assert barrier_from_fowler_nordheim_slope(fit.b_MV_cm, 0.42) == pytest.approx(3.2, rel=1e-10)
+    with pytest.raises(ValueError, match="at least two distinct fields"):
+        fowler_nordheim_fit([8.0, 8.0], [1e-6, 1e-6])
+    with pytest.raises(ValueError, match="current_A_cm2 must be finite and > 0"):
+        fowler_nordheim_fit([8.0, 9.0], [1e-6, 0.0])
 
 
 def test_zero_field_and_bad_input():
