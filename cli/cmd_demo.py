@@ -2,8 +2,9 @@
 
 Runs, into one output directory: the stack check, the self-consistent band
 diagram at the case's gate voltage, the quasi-static C–V (classical vs
-quantum), and the exact vs WKB vs Fowler–Nordheim comparison (J–F, FN plot,
-T(E), thickness x field map). Each step is the corresponding subcommand; this
+quantum), the exact vs WKB vs Fowler–Nordheim comparison (J–F, FN plot,
+T(E), thickness x field map), and the cell's program, erase, ISPP and
+retention behaviour with its design window. Each step is the corresponding subcommand; this
 module only strings them together.
 """
 from __future__ import annotations
@@ -14,7 +15,8 @@ from pathlib import Path
 from cli.common import CAUTION
 
 NAME = "demo"
-HELP = "run the main job on a case: check, band diagram, C–V, and exact vs WKB/FN breakdown (HDF5 + PNG)"
+HELP = ("run the main job on a case: check, band diagram, C–V, exact vs WKB/FN breakdown, "
+        "program/erase/retention (HDF5 + PNG)")
 
 
 def add_arguments(parser):
@@ -40,6 +42,7 @@ def run(args) -> int:
         ("C–V", ["cv", args.case, "--output", str(out / "cv.h5"), "--figure", str(out / "cv.png"), *quiet]),
         ("exact vs WKB vs Fowler–Nordheim", ["breakdown", args.case, "--output", str(out / "breakdown.h5"),
                                             *quiet]),
+        ("cell: program, erase, ISPP, retention", ["cell", args.case, "--output", str(out / "cell.h5"), *quiet]),
     ]
     parser = build_parser()
     available = set(parser._subparsers._group_actions[0].choices)  # commands present in this build

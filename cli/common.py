@@ -3,8 +3,7 @@ from __future__ import annotations
 
 import sys
 
-CAUTION = ("Simulated currents, retention and endurance are estimates; qualification follows the "
-           "applicable standards (e.g. JEDEC JESD47, JESD22-A117) and lab practice, not this tool.")
+from solver.caution import CAUTION  # noqa: F401  (re-exported for the commands)
 
 
 def table(rows, headers, aligns=None) -> str:

@@ -27,6 +27,7 @@ COMMAND_MODULES = (
     "cmd_bands",
     "cmd_cv",
     "cmd_breakdown",
+    "cmd_cell",
     "cmd_study",
     "cmd_show",
     "cmd_plot",

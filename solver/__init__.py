@@ -28,6 +28,8 @@ _EXPORTS = {
     "breakdown_map": "solver.breakdown",
     "BreakdownSettings": "solver.breakdown",
     "run_study": "solver.study",
+    "prepare_cell": "solver.cell",
+    "design_window": "solver.cell",
     "Barrier": "solver.tunneling",
     "transmission": "solver.tunneling",
     "wkb_transmission": "solver.tunneling",

@@ -157,8 +157,7 @@ __all__ = [
     "design_window",
 ]
 
-CAUTION = ("Simulated program/erase speed, retention and endurance are estimates; qualification follows "
-           "the applicable standards (JEDEC JESD47, JESD22-A117, JESD218) and lab practice, not this tool.")
+from solver.caution import CAUTION  # noqa: E402  (the one caution text of the project)
 
 SECONDS_PER_YEAR = 365.25 * 86400.0  # Julian year
 # Fields above this in a thin SiO2-like layer are beyond intrinsic breakdown (~10-20 MV/cm,

@@ -12,11 +12,8 @@ from solver.store import read_run
 SMALL = ["--ispp-count", "4", "--retention-years", "1"]
 
 
-@pytest.fixture(autouse=True)
-def with_cell_command(monkeypatch):
-    """Make sure the command is registered (it is listed in cli.main.COMMAND_MODULES)."""
-    if "cmd_cell" not in cli.main.COMMAND_MODULES:
-        monkeypatch.setattr(cli.main, "COMMAND_MODULES", cli.main.COMMAND_MODULES + ("cmd_cell",))
+def test_cell_command_is_registered():
+    assert "cmd_cell" in cli.main.COMMAND_MODULES
 
 
 def test_writes_store_figures_and_table(tmp_path, capsys):

@@ -13,7 +13,7 @@ def test_demo_writes_every_store_and_figure(tmp_path, capsys):
     assert main(["demo", str(CASES / "demo-cell.toml"), "--output-dir", str(out)]) == 0
     text = capsys.readouterr().out
     assert "estimates" in text  # the caution on simulated results (common practice)
-    for name in ("bands.h5", "cv.h5", "breakdown.h5", "bands.png", "cv.png", "breakdown-ratio-map.png",
+    for name in ("bands.h5", "cv.h5", "breakdown.h5", "cell.h5", "bands.png", "cv.png", "breakdown-ratio-map.png",
                  "breakdown-current-field.png", "breakdown-fowler-nordheim.png", "breakdown-transmission.png"):
         assert (out / name).stat().st_size > 0, name
     with h5py.File(out / "bands.h5") as f:
