@@ -292,15 +292,21 @@ def run(args) -> int:
                         barrier_height_eV=spectra.barrier_height_eV,
                         emitter_fermi_eV=spectra.emitter_fermi_eV, title=f"Transmission T(E): {what}",
                         energy_label=f"{settings.carrier} energy above the emitter {ref} (eV)")
-    current_field_figure(figures["current_field"], field_MV_cm=curve.field_MV_cm,
-                         current_exact_A_cm2=curve.current_exact_A_cm2,
-                         current_wkb_A_cm2=curve.current_wkb_A_cm2, current_fn_A_cm2=curve.current_fn_A_cm2,
-                         current_trapezoid_A_cm2=curve.current_trapezoid_A_cm2, regime=curve.regime,
-                         onset_field_MV_cm=curve.onset_field_MV_cm, gate_V=curve.gate_V,
+    # the figures over field show the emitting points only: a wrong-polarity point of a
+    # gate sweep has no current, and its field magnitude would fold onto the emitting ones
+    emit = np.array([r != "none" for r in curve.regime])
+    regime = tuple(r for r, e in zip(curve.regime, emit) if e)
+    current_field_figure(figures["current_field"], field_MV_cm=curve.field_MV_cm[emit],
+                         current_exact_A_cm2=curve.current_exact_A_cm2[emit],
+                         current_wkb_A_cm2=curve.current_wkb_A_cm2[emit],
+                         current_fn_A_cm2=curve.current_fn_A_cm2[emit],
+                         current_trapezoid_A_cm2=curve.current_trapezoid_A_cm2[emit], regime=regime,
+                         onset_field_MV_cm=curve.onset_field_MV_cm, gate_V=curve.gate_V[emit],
                          title=f"Current density vs field: {what}", field_label=field_label)
-    fowler_nordheim_figure(figures["fowler_nordheim"], field_MV_cm=curve.field_MV_cm,
-                           current_exact_A_cm2=curve.current_exact_A_cm2,
-                           current_wkb_A_cm2=curve.current_wkb_A_cm2, current_fn_A_cm2=curve.current_fn_A_cm2,
+    fowler_nordheim_figure(figures["fowler_nordheim"], field_MV_cm=curve.field_MV_cm[emit],
+                           current_exact_A_cm2=curve.current_exact_A_cm2[emit],
+                           current_wkb_A_cm2=curve.current_wkb_A_cm2[emit],
+                           current_fn_A_cm2=curve.current_fn_A_cm2[emit],
                            onset_field_MV_cm=curve.onset_field_MV_cm, title=f"Fowler–Nordheim plot, {what}")
     written = [h5, figures["current_field"], figures["fowler_nordheim"], figures["transmission"]]
     if bmap is not None:

@@ -86,3 +86,18 @@ def test_cylindrical_cell(tmp_path, capsys):
     np.testing.assert_allclose(layer_field[:, -1], field, rtol=1e-12)
     assert np.all(np.isfinite(np.asarray(bd["current_exact_A_cm2"].values)))
     assert np.asarray(run["groups"]["map"]["current_exact_A_cm2"].values).shape == (3, 4)
+
+
+def test_gate_sweep_through_both_polarities(tmp_path, capsys):
+    # a gate sweep across flat band: the wrong-polarity points are stored with regime
+    # "none" and NaN currents; the figures over field draw the emitting points only
+    out = tmp_path / "g.h5"
+    code = main(["breakdown", "cases/mos-capacitor.toml", "--output", str(out), "--gate-from", "-4",
+                 "--gate-to", "6", "--points", "9", "--no-map", "--quiet"])
+    assert code == 0 and capsys.readouterr().err == ""
+    bd = read_run(out)["groups"]["breakdown"]
+    regime = list(bd["regime"].values)
+    current = np.asarray(bd["current_exact_A_cm2"].values)
+    assert "none" in regime and regime[-1] != "none"
+    assert all(np.isnan(j) == (r == "none") for j, r in zip(current, regime))
+    assert (tmp_path / "g-current-field.png").stat().st_size > 10_000

@@ -167,10 +167,22 @@ def current_field_figure(path, *, field_MV_cm, current_exact_A_cm2, current_wkb_
         if np.all(np.diff(fo) > 0) and np.all(np.isfinite(g)) and (np.all(np.diff(g) > 0) or np.all(np.diff(g) < 0)):
             gs = g if g[-1] > g[0] else g[::-1]
             fs = fo if g[-1] > g[0] else fo[::-1]
-            top = ax.secondary_xaxis("top", functions=(lambda x: np.interp(x, fo, g),
-                                                        lambda v: np.interp(v, gs, fs)))
+            top = ax.secondary_xaxis("top", functions=(lambda x: _interp_linear_ends(x, fo, g),
+                                                        lambda v: _interp_linear_ends(v, gs, fs)))
             top.set_xlabel("gate voltage (V)", fontsize=9)
     return save(fig, path)
+
+
+def _interp_linear_ends(x, xp, fp):
+    """np.interp continued linearly beyond the ends (so that the ticks of a
+    secondary axis outside the data do not pile up on the first or last point)."""
+    x = np.asarray(x, float)
+    y = np.interp(x, xp, fp)
+    if len(xp) > 1:
+        lo, hi = x < xp[0], x > xp[-1]
+        y = np.where(lo, fp[0] + (x - xp[0]) * (fp[1] - fp[0]) / (xp[1] - xp[0]), y)
+        y = np.where(hi, fp[-1] + (x - xp[-1]) * (fp[-1] - fp[-2]) / (xp[-1] - xp[-2]), y)
+    return y
 
 
 def fowler_nordheim_figure(path, *, field_MV_cm, current_exact_A_cm2, current_wkb_A_cm2,
@@ -178,7 +190,8 @@ def fowler_nordheim_figure(path, *, field_MV_cm, current_exact_A_cm2, current_wk
     """Fowler–Nordheim plot: ln(J/F^2) (J in A/cm^2, F in MV/cm) against 1/F (cm/MV)."""
     f = np.asarray(field_MV_cm, float)
     order = np.argsort(f)
-    x = 1.0 / f[order]
+    with np.errstate(divide="ignore"):
+        x = 1.0 / f[order]  # a zero field (flat band) lies at infinity
     fig, ax = new_figure(figsize=(7.2, 4.8))
     for key, j in (("exact", current_exact_A_cm2), ("wkb", current_wkb_A_cm2), ("fn", current_fn_A_cm2)):
         with np.errstate(divide="ignore", invalid="ignore"):
