@@ -154,6 +154,9 @@ def run(args) -> int:
                 _write(target, comments, header, rows)
                 print(f"wrote {target} ({len(rows)} rows)", file=sys.stderr if out == "-" else sys.stdout)
         return 0
+    if args.profiles:
+        raise CaseError(f"--profiles: {path} is a run file; the option is for study files "
+                        "(a run file's 1-D arrays are in its tables already)")
     tables = _run_tables(read_run(path), path)
     if out == "-":
         for comments, header, rows in tables.values():

@@ -186,6 +186,8 @@ def test_run_file_commands(tmp_path, capsys):
     scalars = (tmp_path / "out-bands.csv").read_text()
     assert "fermi_level_eV,-0.25,eV,channel Fermi level" in scalars
     assert "# not in these tables (arrays of 2 or more axes; read the HDF5 file): density_cm3" in scalars
+    assert main(["export", str(path), "--csv", str(tmp_path / "out.csv"), "--profiles"]) == 2
+    assert "--profiles: " in capsys.readouterr().err
 
     assert main(["plot", str(path), "--output-dir", str(tmp_path / "figs")]) == 0
     names = sorted(p.name for p in (tmp_path / "figs").iterdir())
