@@ -18,7 +18,7 @@ Schema (keys carry their unit; layers are listed from the gate to the channel):
                  interface_trap_density_cm2_eV
     [geometry]   kind = "planar"|"cylindrical", channel_radius_nm, core_radius_nm, core_material
     [mesh]       interface_spacing_nm, max_spacing_nm, growth, depth_nm, quantum_depth_nm
-    [bias]       gate_V, sweep_start_V, sweep_stop_V, sweep_count
+    [bias]       gate_V, sweep_start_V, sweep_stop_V, sweep_count, pulse_s
     [materials.NAME]  per-case overrides or new materials (see solver.materials)
     [study]      mode, compute, keep_profiles, outputs; [[study.axis]] key + values or start/stop/count/spacing
 """
@@ -37,7 +37,7 @@ from solver.materials import Dielectric, MaterialLibrary, Metal, Semiconductor, 
 from solver.units import SIO2_PERMITTIVITY_FOR_EOT
 
 MAX_DOPING_CM3 = 1e22
-STUDY_COMPUTES = ("bands", "current", "stack")   # the built-in ones (solver.study)
+STUDY_COMPUTES = ("bands", "current", "stack", "program")   # the built-in ones (solver.study)
 
 
 def _hint(name, options) -> str:
@@ -115,6 +115,7 @@ class Bias:
     sweep_start_V: float = -2.0
     sweep_stop_V: float = 2.0
     sweep_count: int = 81
+    pulse_s: float = 1e-4          # program/erase pulse width for study points
 
 
 @dataclass(frozen=True)
@@ -301,7 +302,7 @@ CHANNEL_KEYS = ("material", "orientation", "acceptors_cm3", "donors_cm3", "ioniz
                 "interface_charge_cm2", "interface_trap_density_cm2_eV")
 GEOMETRY_KEYS = ("kind", "channel_radius_nm", "core_radius_nm", "core_material")
 MESH_KEYS = ("interface_spacing_nm", "max_spacing_nm", "growth", "depth_nm", "quantum_depth_nm")
-BIAS_KEYS = ("gate_V", "sweep_start_V", "sweep_stop_V", "sweep_count")
+BIAS_KEYS = ("gate_V", "sweep_start_V", "sweep_stop_V", "sweep_count", "pulse_s")
 STUDY_KEYS = ("mode", "compute", "keep_profiles", "outputs", "axis")
 AXIS_KEYS = ("key", "values", "start", "stop", "count", "spacing")
 SECTION_KEYS = {"gate": GATE_KEYS, "channel": CHANNEL_KEYS, "geometry": GEOMETRY_KEYS,
@@ -546,7 +547,8 @@ def _parse_bias(t) -> Bias:
         raise CaseError(f"bias.sweep_count: expected a whole number from 2 to 100000, got {_fmt(count)}")
     if start == stop:
         raise CaseError(f"bias.sweep_stop_V: must differ from sweep_start_V ({start:g})")
-    return Bias(gate, start, stop, count)
+    pulse = _number(t, "pulse_s", "bias", default=d.pulse_s, minimum=0.0, maximum=1e4)
+    return Bias(gate, start, stop, count, pulse)
 
 
 def _parse_study(t, case: Case) -> Study:

@@ -46,6 +46,7 @@ import threading
 import time
 import traceback
 from dataclasses import dataclass, field
+from pathlib import Path
 from types import MappingProxyType
 from typing import Callable, Mapping, Sequence
 
@@ -257,11 +258,6 @@ class StudyPlan:
         return tuple((a.key, a.values[int(i)]) for a, i in zip(self.axes, pos))
 
 
-def _axis_values(axis) -> tuple[float, ...]:
-    values = tuple(float(v) for v in axis.values)
-    return values
-
-
 def plan_study(
     case,
     *,
@@ -299,7 +295,7 @@ def plan_study(
         if key in seen:
             raise CaseError(f"{where}.key: {key!r} appears twice")
         seen.add(key)
-        values = _axis_values(axis)
+        values = tuple(float(v) for v in axis.values)
         if not values:
             raise CaseError(f"{where} ({key}): no values (empty range)")
         for v in values:
@@ -366,6 +362,8 @@ def plan_study(
     digest = hashlib.sha256()
     digest.update(str(getattr(case, "text", "")).encode("utf-8"))
     digest.update(b"\0")
+    digest.update(_materials_file_bytes(case))
+    digest.update(b"\0")
     digest.update(repr(tuple(getattr(case, "overrides", ()))).encode("utf-8"))
     digest.update(b"\0")
     digest.update(spec_json.encode("utf-8"))
@@ -379,6 +377,24 @@ def plan_study(
         spec_json=spec_json,
         spec_hash=digest.hexdigest(),
     )
+
+
+def _materials_file_bytes(case) -> bytes:
+    """The contents of the case's own materials file (``materials_file``), so that
+    editing it counts as a different study; b"" when the case has none."""
+    raw = getattr(case, "raw", None) or {}
+    name = raw.get("materials_file") if isinstance(raw, Mapping) else None
+    if not isinstance(name, str):
+        return b""
+    path = Path(name)
+    if not path.is_absolute():
+        source = str(getattr(case, "source", "") or "")
+        base = Path(source).resolve().parent if source and not source.startswith("<") else Path.cwd()
+        path = base / path
+    try:
+        return path.read_bytes()
+    except OSError:
+        return b""
 
 
 def _profile_reserves(plan: StudyPlan, reserves: dict[str, int]) -> dict[str, int]:
@@ -894,4 +910,39 @@ register_computation(
     warm_up=_warm_current,
     sizes=_layer_sizes,
     description="tunneling current from the channel at bias.gate_V (stack electrostatics, planar or coaxial)",
+)
+
+
+def _warm_program() -> None:
+    _warm_current()
+
+
+def program_point(case) -> dict:
+    """V_T of the cell after one program pulse of bias.pulse_s at bias.gate_V,
+    from the neutral cell (solver.cell; default cell settings)."""
+    from solver.cell import prepare_cell, program
+
+    cell = prepare_cell(case)
+    run = program(cell, case.bias.gate_V, case.bias.pulse_s)
+    return {
+        "threshold_V": run.final_threshold_V,
+        "threshold_shift_V": run.final_threshold_V - cell.neutral_threshold_V,
+        "charge_cm2": run.final_charge_cm2,
+        "start_tunnel_field_MV_cm": float(run.tunnel_field_MV_cm[0]),
+        "end_tunnel_field_MV_cm": float(run.tunnel_field_MV_cm[-1]),
+    }
+
+
+register_computation(
+    "program",
+    program_point,
+    {
+        "threshold_V": Output("V", "threshold voltage after the program pulse (an estimate)"),
+        "threshold_shift_V": Output("V", "threshold shift from the neutral cell"),
+        "charge_cm2": Output("q/cm^2", "net stored charge in the trap layer (negative: electrons)"),
+        "start_tunnel_field_MV_cm": Output("MV/cm", "tunnel-layer field at the start of the pulse"),
+        "end_tunnel_field_MV_cm": Output("MV/cm", "tunnel-layer field at the end of the pulse"),
+    },
+    warm_up=_warm_program,
+    description="program pulse of bias.pulse_s at bias.gate_V from the neutral cell (solver.cell)",
 )
