@@ -493,8 +493,9 @@ def _plain_attr(value):
 # study files
 #
 # Layout of a study file (root attribute kind = "study")
-#   root attributes   as for a run, plus study_hash (sha256 of the case text and
-#                     the study spec) and compute (the point computation's name)
+#   root attributes   as for a run, plus study_hash (sha256 of the case text, its
+#                     materials file if any, and the study spec) and compute (the
+#                     point computation's name)
 #   /study            group attributes: compute, mode ("grid" | "zip"), keys
 #                     (axis key paths), spec (JSON), n_points
 #     <key path>      one 1-D dataset per axis, e.g. "layers.tunnel.thickness_nm",

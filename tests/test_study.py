@@ -744,3 +744,17 @@ def test_point_writes_touch_raw_data_only(tmp_path):
     for lo, hi in extents:
         inside |= (changed >= lo) & (changed < hi)
     assert inside.all()
+
+
+def test_editing_the_materials_file_makes_another_study(tmp_path):
+    # the case's own materials file is an input like the case text: a study file
+    # written before it was edited must not be resumed with the new values
+    from solver.case import load_case
+
+    (tmp_path / "ours.toml").write_text('[references]\nLabNotes = "our lab notebook, first entry"\n')
+    case_path = tmp_path / "cell.toml"
+    case_path.write_text('materials_file = "ours.toml"\n' + REAL_CASE)
+    first = plan_study(load_case(case_path)).spec_hash
+    assert plan_study(load_case(case_path)).spec_hash == first
+    (tmp_path / "ours.toml").write_text('[references]\nLabNotes = "our lab notebook, second entry"\n')
+    assert plan_study(load_case(case_path)).spec_hash != first
