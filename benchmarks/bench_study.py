@@ -12,7 +12,7 @@
 
 The point computation is a numpy kernel of about `--point-ms` ms on one core
 (elementwise exp/cos over a grid whose size depends on the point's tunnel
-thickness), so ratios mean something before the physics solvers are wired in.
+thickness), so the ratios measure the study machinery, not the physics solvers.
 The machine is shared: figures drift; compare the ratios within one run.
 """
 from __future__ import annotations
