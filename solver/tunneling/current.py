@@ -130,6 +130,8 @@ def supply_function_eV(energy_eV, fermi_left_eV, fermi_right_eV, temperature_K):
 
     At T = 0 it is max(E_FL - E, 0) - max(E_FR - E, 0).
     """
+    if not (np.isfinite(temperature_K) and temperature_K >= 0):
+        raise ValueError(f"supply_function_eV: temperature_K must be finite and >= 0, got {temperature_K!r}")
     e = np.asarray(energy_eV, dtype=np.float64)
     kT = BOLTZMANN_EV_K * temperature_K
     hi, lo = max(fermi_left_eV, fermi_right_eV), min(fermi_left_eV, fermi_right_eV)
@@ -566,8 +568,12 @@ def current_sweep(barriers, fermi_left_eV, fermi_right_eV, temperature_K, *, mod
     """
     barriers = list(barriers)
     n = len(barriers)
-    efl = np.broadcast_to(np.asarray(fermi_left_eV, dtype=np.float64), (n,))
-    efr = np.broadcast_to(np.asarray(fermi_right_eV, dtype=np.float64), (n,))
+    efl, efr = (np.asarray(v, dtype=np.float64) for v in (fermi_left_eV, fermi_right_eV))
+    for name, v in (("fermi_left_eV", efl), ("fermi_right_eV", efr)):
+        if v.ndim > 1 or (v.ndim == 1 and v.size != n):
+            raise ValueError(f"current_sweep: {name} must be a scalar or one value per barrier ({n}), "
+                             f"got shape {v.shape}")
+    efl, efr = np.broadcast_to(efl, (n,)), np.broadcast_to(efr, (n,))
     out = np.empty(n)
     for i, bar in enumerate(barriers):
         out[i] = tsu_esaki(bar, efl[i], efr[i], temperature_K, model=model, rtol=rtol,

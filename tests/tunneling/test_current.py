@@ -244,6 +244,10 @@ def test_bad_input_and_failures(monkeypatch):
         bias_for_field(b, 0.5, 10.0)
     with pytest.raises(ValueError, match="current_density: barrier must be a solver.tunneling.Barrier"):
         current_density("oxide", 0.1, 0.0, 300.0)
+    with pytest.raises(ValueError, match=r"current_sweep: fermi_right_eV must be a scalar or one value per barrier \(2\)"):
+        current_sweep([b, b], 0.1, [0.0, -0.1, -0.2], 300.0)
+    with pytest.raises(ValueError, match="supply_function_eV: temperature_K"):
+        supply_function_eV(0.0, 0.1, 0.0, -5.0)
     with pytest.raises(ComputationError, match="non-finite"):
         current_density(b, 0.1, 0.0, 300.0, model=lambda bar, x: np.full(np.shape(x), np.nan))
     # an integration that cannot reach its tolerance raises, carrying the record
