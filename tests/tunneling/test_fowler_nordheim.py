@@ -67,22 +67,30 @@ def test_check_value_lenzlinger_snow_parameters():
     # physics-data sheet Sec. 7: 1.132e-3 A/cm^2 at 10 MV/cm for (3.2 eV, 0.42), computed there;
     # parameters of M. Lenzlinger and E. H. Snow, J. Appl. Phys. 40, 278 (1969) (from memory)
     assert fowler_nordheim_current(10.0, 3.2, 0.42) == pytest.approx(1.132e-3, rel=1e-3)
-    # Sec. 3.3 table, same set: 1.28e-6 / 1.13e-3 / 1.11e-1 at 8 / 10 / 12 MV/cm (3 digits)
-    assert_allclose(fowler_nordheim_current([8.0, 10.0, 12.0], 3.2, 0.42), [1.28e-6, 1.13e-3, 1.11e-1], rtol=5e-3)
 
 
-def test_constants_lenzlinger_snow_and_weinberg_sets():
-    # physics-data sheet Sec. 3.3 (computed there): A = 1.147e-6 A/V^2, B = 253.4 MV/cm for (3.2, 0.42);
-    # 9.79e-7, 270.0 for (3.15, 0.50) (Z. A. Weinberg, J. Appl. Phys. 53, 5052 (1982) set)
-    c = fowler_nordheim_constants(3.2, 0.42)
-    assert c.a_A_V2 == pytest.approx(1.147e-6, rel=5e-4)
-    assert c.b_MV_cm == pytest.approx(253.4, rel=5e-4)
-    c = fowler_nordheim_constants(3.15, 0.50)
-    assert c.a_A_V2 == pytest.approx(9.79e-7, rel=5e-4)
-    assert c.b_MV_cm == pytest.approx(270.0, rel=5e-4)
+def test_unit_constants():
     # physics-data Sec. 1: q^2/(8 pi h) = 1.54143e-6 A/V^2; B unit 6.83089e7 V/cm
     assert fowler_nordheim_constants(1.0, 1.0).a_A_V2 == pytest.approx(1.54143e-6, rel=1e-5)
     assert fowler_nordheim_constants(1.0, 1.0).b_MV_cm == pytest.approx(68.3089, rel=1e-5)
+
+
+@pytest.mark.parametrize(
+    "phi, m, a, b, j",
+    [
+        # physics-data sheet Sec. 3.3 table (computed there): A (A/V^2), B (MV/cm), J at 8/10/12 MV/cm (A/cm^2)
+        (3.2, 0.42, 1.147e-6, 253.4, (1.28e-6, 1.13e-3, 1.11e-1)),   # Lenzlinger & Snow set (from memory)
+        (3.15, 0.50, 9.79e-7, 270.0, (1.37e-7, 1.83e-4, 2.38e-2)),   # Weinberg-type set
+        (3.1, 0.40, 1.243e-6, 235.8, (1.26e-5, 7.14e-3, 5.23e-1)),   # Lee & Hu set (from memory)
+        (3.25, 0.42, 1.129e-6, 259.4, (6.0e-7, 6.14e-4, 6.67e-2)),     # 6.0e-7: two digits only
+    ],
+)
+def test_sheet_table_of_constants_and_currents(phi, m, a, b, j):
+    # 4 significant digits for A and B, 3 for J (2 for 6.0e-7): half a unit of the last digit
+    c = fowler_nordheim_constants(phi, m)
+    assert c.a_A_V2 == pytest.approx(a, rel=5e-4) and c.b_MV_cm == pytest.approx(b, rel=5e-4)
+    rtol = np.array([1e-2 if x == 6.0e-7 else 5e-3 for x in j])
+    assert np.all(np.abs(fowler_nordheim_current([8.0, 10.0, 12.0], phi, m) / np.array(j) - 1) < rtol)
 
 
 def test_fn_plot_recovers_slope_and_barrier():
