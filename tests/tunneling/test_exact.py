@@ -147,7 +147,7 @@ def test_double_barrier_resonances_at_finite_well_levels(m_well, m_barrier):
     res = minimize_scalar(lambda e: -float(transmission(b, e)), bounds=(0.9 * E1, 1.1 * E1),
                           method="bounded", options=dict(xatol=1e-13))
     E_peak, T_peak = res.x, -res.fun
-    # symmetric structure: T -> 1 at resonance
+    # symmetric structure: T -> 1 at resonance (common practice: a symmetric double barrier is transparent there)
     assert T_peak > 1 - 1e-8
     assert T_peak <= 1.0
     # width of the peak (half maximum on each side)
