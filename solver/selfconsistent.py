@@ -46,6 +46,14 @@ next phi_k. The outer loop stops when max |phi_{k+1} - phi_k| is below
 `tolerance_V` (default 1e-8 V; each inner Newton solve is converged to 1e-9 V);
 an unconverged solve raises ConvergenceError with the residual history.
 
+Validity: the box ends 2 nm inside the adjacent dielectric with psi = 0. At
+tunnel-layer fields near 20 MV/cm and above, the dielectric's band edge falls
+below the occupied subbands within those 2 nm and the box wall binds carriers
+that would in fact tunnel into the dielectric. A converged solution with more
+than WALL_SHARE_LIMIT (1e-3) of the quantized carriers in the outer half of the
+box's dielectric part (legitimate penetration puts < 1e-4 there) is refused
+with ComputationError rather than returned.
+
 Cylindrical cells use the radial operator with l = 0 and count each subband
 as a 2-D sheet wrapped around the axis at the state's mean radius
 <r>_j = integral R_j^2 r^2 dr (integral R_j^2 r dr = 1): the angular states
@@ -78,7 +86,7 @@ import numpy as np
 
 from solver import statistics as stat
 from solver.electrostatics import Poisson, QuantumCharge
-from solver.errors import ConvergenceError, ConvergenceRecord
+from solver.errors import ComputationError, ConvergenceError, ConvergenceRecord
 from solver.mesh import Structure, structure_from_case
 from solver.schrodinger import Hamiltonian
 from solver.units import (
@@ -102,6 +110,7 @@ ANDERSON_DEPTH = 3
 SUBBANDS_REPORTED = 10      # lowest subbands per valley set listed in Solution.subbands
 SCHRODINGER_MIN_SPACING_M = 0.02e-9
 NEGLIGIBLE_SHEET_M2 = 1e7   # 1e3 carriers per cm^2
+WALL_SHARE_LIMIT = 1e-3     # quantized carriers allowed in the outer half of the box's dielectric part
 TAIL_KT = 12.0              # states are added until the highest lies this far above max(E_F, E_0)
 
 
@@ -363,6 +372,28 @@ class _QuantumChannel:
         self._box_in_channel = np.isin(ch.nodes, q)
         self._box_volume = ch.volume * self._box_in_channel
         self._weights = {}
+        # box nodes in the outer half of its dielectric part (farther from the
+        # channel than half the penetration depth): legitimate penetration puts
+        # < 1e-4 of the carriers there, carriers bound against the box wall far more
+        x = structure.x_m[q]
+        edges = structure.x_m[[ch.nodes[0], ch.nodes[-1]]]
+        in_dielectric = np.array([structure.regions[k].kind != "channel" for k in structure.node_region[q]])
+        depth = np.min(np.abs(x[:, None] - edges[None, :]), axis=1)
+        reach = float(depth[in_dielectric].max()) if in_dielectric.any() else 0.0
+        self._outer_dielectric = in_dielectric & (depth > 0.5 * reach)
+
+    def wall_share(self, states):
+        """(share, carrier): the largest fraction, over the quantized carrier
+        types, of the quantized carriers in the outer half of the box's
+        dielectric part ("electrons" or "holes")."""
+        total = {"e": 0.0, "h": 0.0}
+        outer = {"e": 0.0, "h": 0.0}
+        for carrier, _v, _E, N, psi2 in self.populations(states):
+            amount = self.weight * (psi2 @ N)
+            total[carrier] += float(amount.sum())
+            outer[carrier] += float(amount[self._outer_dielectric].sum())
+        shares = [(outer[c] / total[c], "electrons" if c == "e" else "holes") for c in total if total[c] > 0]
+        return max(shares, default=(0.0, "electrons"))
 
     def active_carriers(self, phi, gate_V, previous=(False, False)):
         """Which carriers are quantized: those whose classical sheet density
@@ -524,7 +555,8 @@ def solve(case, gate_V=None, quantum=True, statistics="fermi-dirac") -> Solution
     """Self-consistent electrostatics of `case` at `gate_V` (default: the
     case's bias.gate_V). `quantum=False`: classical carriers everywhere;
     `statistics="boltzmann"` for Boltzmann carriers. Raises ConvergenceError
-    when the solve does not converge."""
+    when the solve does not converge, ComputationError when the quantized
+    carriers collect at the quantum box's dielectric wall (module docstring)."""
     if gate_V is None:
         gate_V = case.bias.gate_V
     try:
@@ -609,7 +641,19 @@ def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=No
             f"{', '.join(f'{h:.2e}' for h in history[-5:])} V", record)
     # the last states (of a potential within tolerance_V of the result) are the
     # reported ones; the charge residual is that of the last Poisson solve
-    return _solution(prep, gate_V, phi, states, record, it, newton_total, True, phi_states)
+    sol = _solution(prep, gate_V, phi, states, record, it, newton_total, True, phi_states)
+    share, carrier = qc.wall_share(states)
+    if share > WALL_SHARE_LIMIT:
+        layer = sol.layer_names[-1]
+        band = "conduction" if carrier == "electrons" else "valence"
+        raise ComputationError(
+            f"Schrödinger–Poisson at gate_V = {gate_V:g} V: {share:.1%} of the quantized {carrier} "
+            f"collect against the edge of the quantum box inside layer {layer!r} (field "
+            f"{sol.layer_fields_MV_cm[-1]:+.1f} MV/cm at the channel): the dielectric's {band} band "
+            f"falls below their subbands there, they would tunnel into the dielectric; the bound-state "
+            f"channel model does not hold at this bias (the classical channel, quantum=False, still "
+            f"applies)")
+    return sol
 
 
 # --------------------------------------------------------------------------- outputs
