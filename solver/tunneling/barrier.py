@@ -93,10 +93,14 @@ class Barrier:
         names = ("thickness_nm", "u_start_eV", "u_end_eV", "mass")
         for name in names:
             raw = getattr(self, name)
-            if np.ndim(raw) == 0:
-                raise ValueError(f"Barrier: {name} must be a sequence (one entry per layer), got {raw!r}")
             try:
-                values = tuple(float(v) for v in np.asarray(raw, dtype=object).ravel())
+                flat = np.ndim(raw) == 1
+            except ValueError:               # ragged nesting
+                flat = False
+            if not flat:
+                raise ValueError(f"Barrier: {name} must be a flat sequence (one entry per layer), got {raw!r}")
+            try:
+                values = tuple(float(v) for v in raw)
             except (TypeError, ValueError):
                 raise ValueError(f"Barrier: {name} must hold numbers, got {raw!r}") from None
             object.__setattr__(self, name, values)

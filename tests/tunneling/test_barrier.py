@@ -88,7 +88,9 @@ def test_pickle_round_trip_without_cache():
         (dict(left=(math.nan, 0.5)), r"left: band_edge_eV must be finite"),
         (dict(right=(0.0, -0.5)), r"right: mass must be finite and > 0"),
         (dict(right=(0.0,)), r"right: lead must be a \(band_edge_eV, mass\) pair"),
-        (dict(thickness_nm=1.0), r"thickness_nm must be a sequence"),
+        (dict(thickness_nm=1.0), r"thickness_nm must be a flat sequence"),
+        (dict(mass=[[0.42, 0.5]]), r"mass must be a flat sequence"),
+        (dict(u_start_eV=("3.1", None)), r"u_start_eV must hold numbers"),
     ],
 )
 def test_invalid_input_names_field_and_layer(changes, pattern):
