@@ -15,7 +15,7 @@ import numpy as np
 
 from solver.units import EV_TO_J, M0_KG, NM_TO_M
 
-__all__ = ["Barrier", "LayerDataSI", "check_lead", "require_barrier"]
+__all__ = ["Barrier", "LayerDataSI", "as_energy_eV", "check_lead", "require_barrier"]
 
 
 @dataclass(frozen=True)
@@ -50,6 +50,16 @@ def require_barrier(barrier, where: str) -> None:
     """ValueError unless `barrier` is a Barrier (the first argument of every routine here)."""
     if not isinstance(barrier, Barrier):
         raise ValueError(f"{where}: barrier must be a solver.tunneling.Barrier, got {type(barrier).__name__}")
+
+
+def as_energy_eV(energy_eV, where) -> np.ndarray:
+    """`energy_eV` as a float64 array; ValueError naming `where` if it does not hold real numbers."""
+    try:
+        return np.asarray(energy_eV, dtype=np.float64)
+    except (TypeError, ValueError):
+        text = repr(energy_eV)
+        text = text if len(text) <= 60 and "\n" not in text else f"a {type(energy_eV).__name__}"
+        raise ValueError(f"{where}: energy_eV must be a real number or an array of them, got {text}") from None
 
 
 def _readonly(values) -> np.ndarray:

@@ -18,15 +18,15 @@ import numpy as np
 from solver.errors import ComputationError
 from solver.tunneling._airy import anchors_and_coefficients
 from solver.tunneling._kernels import transfer_product, transmission_kernel
-from solver.tunneling.barrier import Barrier, require_barrier
+from solver.tunneling.barrier import Barrier, as_energy_eV, require_barrier
 from solver.units import EV_TO_J
 
 __all__ = ["transmission", "transfer_matrix"]
 
 
-def energies_J(energy_eV) -> tuple[np.ndarray, tuple]:
+def energies_J(energy_eV, where="transmission") -> tuple[np.ndarray, tuple]:
     """Energies (eV, any shape) as a contiguous 1-D SI array, and the input shape."""
-    e = np.asarray(energy_eV, dtype=np.float64)
+    e = as_energy_eV(energy_eV, where)
     return np.ascontiguousarray(e.ravel()) * EV_TO_J, e.shape
 
 
@@ -59,7 +59,7 @@ def transfer_matrix(barrier: Barrier, energy_eV):
     Lengths are in nm, psi'/m in nm^-1 per m0 (see `_kernels`).
     """
     require_barrier(barrier, "transfer_matrix")
-    e_J, shape = energies_J(energy_eV)
+    e_J, shape = energies_J(energy_eV, "transfer_matrix")
     if not np.isfinite(e_J).all():
         _raise_bad_energy(e_J, int(np.flatnonzero(~np.isfinite(e_J))[0]), "transfer_matrix")
     d = barrier.layer_data_si

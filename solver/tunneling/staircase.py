@@ -60,7 +60,7 @@ def staircase_transmission(
     if isinstance(n_slices, bool) or int(n_slices) != n_slices or n_slices < 1:
         raise ValueError(f"{where}: n_slices must be an integer >= 1, got {n_slices!r}")
     n_slices = int(n_slices)
-    e_J, shape = energies_J(energy_eV)
+    e_J, shape = energies_J(energy_eV, where)
     frac = (np.arange(n_slices) + 0.5) / n_slices
     d = np.asarray(barrier.thickness_nm)
     u0 = np.asarray(barrier.u_start_eV)[:, None]
@@ -127,5 +127,5 @@ def staircase_transmission_profile(x_nm, u_eV, mass, left, right, energy_eV) -> 
         raise ValueError(f"{where}: mass[{bad[0]}] must be finite and > 0 (units of m0), got {m.ravel()[bad[0]]}")
     left = check_lead(left, "left", where)
     right = check_lead(right, "right", where)
-    e_J, shape = energies_J(energy_eV)
+    e_J, shape = energies_J(energy_eV, where)
     return _solve(e_J, shape, steps, 0.5 * (u[1:] + u[:-1]), m_slice, left, right, where)

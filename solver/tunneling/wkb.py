@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from solver.tunneling.barrier import require_barrier
+from solver.tunneling.barrier import as_energy_eV, require_barrier
 from solver.units import EV_TO_J, HBAR_J_S, M0_KG, NM_TO_M
 
 __all__ = ["wkb_transmission", "wkb_exponent"]
@@ -36,7 +36,7 @@ _KAPPA_PER_M = np.sqrt(2.0 * M0_KG * EV_TO_J) / HBAR_J_S
 
 
 def _as_energy(energy_eV, where) -> np.ndarray:
-    e = np.asarray(energy_eV, dtype=np.float64)
+    e = as_energy_eV(energy_eV, where)
     bad = np.flatnonzero(~np.isfinite(e))
     if bad.size:
         raise ValueError(f"{where}: energy_eV must be finite, got energy_eV[{bad[0]}] = {e.ravel()[bad[0]]}")

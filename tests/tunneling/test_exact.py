@@ -264,6 +264,12 @@ def test_invalid_input():
         transmission(b, [1.0, math.nan])
     with pytest.raises(ValueError, match="barrier must be a solver.tunneling.Barrier"):
         transmission("oxide", 1.0)
+    with pytest.raises(ValueError, match=r"transmission: energy_eV must be a real number or an array of them, got 'x'"):
+        transmission(b, "x")
+    with pytest.raises(ValueError, match="energy_eV must be a real number"):
+        transmission(b, [1.0, [2.0]])
+    with pytest.raises(ValueError, match="energy_eV must be a real number"):
+        transmission(b, 1 + 1j)
 
 
 def test_thin_and_extreme_layers_finite():
