@@ -1069,8 +1069,8 @@ def barrier_from_profile(x_nm, band_edge_eV, mass, left, right, *, reverse: bool
     """A Barrier from a sampled band-edge profile (e.g. a solved band diagram).
 
     ``x_nm`` increasing sample positions, ``band_edge_eV`` and ``mass`` per
-    sample (mass of the interval starting at that sample is taken as the mean of
-    its two ends unless they are equal). ``method="linear"`` joins the samples
+    sample (the mass of an interval is the mean of the masses at its two
+    ends). ``method="linear"`` joins the samples
     by linear pieces (treated exactly by the Airy kernel), ``"staircase"`` uses
     flat slices at the interval midpoints. ``reverse=True`` lists the profile
     from the last sample to the first (e.g. flow from the channel to the gate).
