@@ -398,13 +398,14 @@ class _QuantumChannel:
     def active_carriers(self, phi, gate_V, previous=(False, False)):
         """Which carriers are quantized: those whose classical sheet density
         in the box exceeds NEGLIGIBLE_SHEET_M2 (once on, they stay on for the
-        rest of the solve). The others stay classical everywhere: they hold
-        less than 1e3 per cm^2 in the box."""
+        rest of the solve) and whose material has band data for quantization
+        (valley sets, hole bands). The others stay classical everywhere."""
         dens = next(d for d in self.p.semiconductor_densities(phi, gate_V) if d["role"] == "channel")
         ref = self.s.reference_area
         e = float(np.sum(dens["n"] * self._box_volume)) / ref
         h = float(np.sum(dens["p"] * self._box_volume)) / ref
-        return (previous[0] or e > NEGLIGIBLE_SHEET_M2, previous[1] or h > NEGLIGIBLE_SHEET_M2)
+        return (previous[0] or (bool(self.electrons.valleys) and e > NEGLIGIBLE_SHEET_M2),
+                previous[1] or (bool(self.holes.valleys) and h > NEGLIGIBLE_SHEET_M2))
 
     def classical_weights(self, active):
         """Per-node weights of the classical electrons and holes."""

@@ -279,6 +279,24 @@ def test_quantized_majority_carriers_recover_the_bulk_density(case17):
     assert q.hole_density_cm3[wall] < 0.1 * c.hole_density_cm3[wall]
 
 
+def test_carriers_without_band_data_stay_classical():
+    # a semiconductor with valley sets but no hole bands (allowed in a user's materials
+    # file): in accumulation its holes cannot be quantized and must keep their classical
+    # density, so the quantum solve equals the classical one (charge as in Sze & Ng 2007,
+    # Sec. 4.2; checked against the classical solve of the same structure)
+    from solver.materials import Valley
+    from solver.mesh import DielectricSpec, SemiconductorSpec, build_structure
+
+    spec = SemiconductorSpec("channel", "X", 11.7, 4.05, 1.1245, 2.86e25, 3.10e25, acceptors_m3=1e23,
+                             electron_valleys=(Valley("2-fold", 2, 0.916, 0.19),))
+    st = build_structure(geometry="planar", temperature_K=300.0, channel=spec, metal_work_function_eV=4.1,
+                         layers=(DielectricSpec("oxide", "SiO2", 5e-9, 3.9, 0.9, 8.9, 0.5, 0.32),))
+    q = solve_structure(prepare(st, "fermi-dirac", True), -2.0)
+    c = solve_structure(prepare(st, "fermi-dirac", False), -2.0, quantum=False)
+    assert q.subbands == () and q.majority_excess_cm2 > 1e12
+    assert q.hole_sheet_cm2 == pytest.approx(c.hole_sheet_cm2, rel=1e-9)
+
+
 def test_poly_gate_cell_solves_with_poly_depletion():
     # n+ poly-Si gate: the gate depletes in inversion of the p-type channel
     # (Sze & Ng 2007, Sec. 4.2), so less voltage reaches the oxide than with a metal of
