@@ -155,6 +155,7 @@ def test_gate_emission_and_holes():
     st_h = stack_state(data, field_MV_cm=-10.0, field_layer=-1)
     h = stack_barrier(data, st_h, carrier="hole", emitter="channel")
     # hole barrier from Si = valence band offset (chi_ox + Eg_ox) - (chi_Si + Eg_Si)
+    # (physics-data sheet Sec. 3.1: VBO = Eg,diel - Eg,Si - CBO; 4.63 eV for SiO2, "derived")
     assert_allclose(h.barrier_height_eV, (0.9 + 8.9) - (4.05 + 1.12), rtol=1e-12)
     assert h.barrier.left[0] == pytest.approx(-st_h.channel_valence_eV)
     assert h.injecting_drop_eV > 0
@@ -170,6 +171,8 @@ def test_emission_sign():
 
 
 def test_injecting_layer_only_collects_in_next_band():
+    # the collector is the next layer's conduction band at the interface (flat lead),
+    # with that layer's mass (0.5 in the stand-in stack)
     data = make_stack()
     st = stack_state(data, field_MV_cm=10.0, field_layer=-1)
     sb = stack_barrier(data, st, through="injecting-layer")
@@ -248,6 +251,7 @@ def test_from_shipped_case():
     data = stack_data(case)
     assert data.count == 1 and data.gate_kind == "metal"
     st = stack_state(data, field_MV_cm=8.0, field_layer=0)
+    # one charge-free layer: uniform field, V = F t (1 MV/cm x 1 nm = 0.1 V)
     assert_allclose(st.stack_V, 8.0 * 0.1 * data.thickness_nm[0], rtol=1e-12)
     cyl = stack_data(load_case("cases/demo-cell-cylindrical.toml"))
     assert cyl.cylindrical and cyl.channel_radius_nm == 20.0 and cyl.core_radius_nm == 10.0
