@@ -33,12 +33,23 @@ class LayerDataSI:
     lead_mass_kg: np.ndarray
 
 
+def _short(value) -> str:
+    """repr of `value` for a one-line message (long or multi-line reprs summarised)."""
+    text = repr(value)
+    if len(text) <= 60 and "\n" not in text:
+        return text
+    if hasattr(value, "shape"):
+        return f"an array of shape {tuple(value.shape)}"
+    size = f" of {len(value)} entries" if hasattr(value, "__len__") else ""
+    return f"a {type(value).__name__}{size}"
+
+
 def check_lead(lead, side: str, where: str) -> tuple[float, float]:
     """A lead as a (band_edge_eV, mass) pair of floats; ValueError naming `where` and `side` otherwise."""
     try:
         edge, m = (float(v) for v in lead)
     except (TypeError, ValueError):
-        raise ValueError(f"{where} {side}: lead must be a (band_edge_eV, mass) pair, got {lead!r}") from None
+        raise ValueError(f"{where} {side}: lead must be a (band_edge_eV, mass) pair, got {_short(lead)}") from None
     if not math.isfinite(edge):
         raise ValueError(f"{where} {side}: band_edge_eV must be finite, got {edge}")
     if not (m > 0 and math.isfinite(m)):
@@ -57,9 +68,8 @@ def as_energy_eV(energy_eV, where) -> np.ndarray:
     try:
         return np.asarray(energy_eV, dtype=np.float64)
     except (TypeError, ValueError):
-        text = repr(energy_eV)
-        text = text if len(text) <= 60 and "\n" not in text else f"a {type(energy_eV).__name__}"
-        raise ValueError(f"{where}: energy_eV must be a real number or an array of them, got {text}") from None
+        raise ValueError(f"{where}: energy_eV must be a real number or an array of them, got {_short(energy_eV)}") \
+            from None
 
 
 def _readonly(values) -> np.ndarray:
@@ -108,11 +118,11 @@ class Barrier:
             except ValueError:               # ragged nesting
                 flat = False
             if not flat:
-                raise ValueError(f"Barrier: {name} must be a flat sequence (one entry per layer), got {raw!r}")
+                raise ValueError(f"Barrier: {name} must be a flat sequence (one entry per layer), got {_short(raw)}")
             try:
                 values = tuple(float(v) for v in raw)
             except (TypeError, ValueError):
-                raise ValueError(f"Barrier: {name} must hold numbers, got {raw!r}") from None
+                raise ValueError(f"Barrier: {name} must hold numbers, got {_short(raw)}") from None
             object.__setattr__(self, name, values)
         lengths = {name: len(getattr(self, name)) for name in names}
         if len(set(lengths.values())) != 1:

@@ -90,6 +90,7 @@ def test_pickle_round_trip_without_cache():
         (dict(right=(0.0,)), r"right: lead must be a \(band_edge_eV, mass\) pair"),
         (dict(thickness_nm=1.0), r"thickness_nm must be a flat sequence"),
         (dict(mass=[[0.42, 0.5]]), r"mass must be a flat sequence"),
+        (dict(mass=np.ones((2, 40))), r"mass must be a flat sequence \(one entry per layer\), got an array of shape \(2, 40\)$"),
         (dict(u_start_eV=("3.1", None)), r"u_start_eV must hold numbers"),
     ],
 )
