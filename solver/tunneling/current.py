@@ -160,6 +160,10 @@ def _transmission_model(model) -> Callable:
 
 
 def _check_inputs(fermi_left_eV, fermi_right_eV, temperature_K, rtol, supply_mass, atol_A_cm2=0.0):
+    for name, value in (("fermi_left_eV", fermi_left_eV), ("fermi_right_eV", fermi_right_eV),
+                        ("temperature_K", temperature_K)):
+        if np.ndim(value) != 0:
+            raise ValueError(f"{name} must be a single number, got an array of shape {np.shape(value)}")
     for name, value in (("fermi_left_eV", fermi_left_eV), ("fermi_right_eV", fermi_right_eV)):
         if not np.isfinite(value):
             raise ValueError(f"{name} must be finite, got {value!r}")

@@ -102,6 +102,9 @@ class FowlerNordheimFit:
 
 
 def _check_barrier(barrier_eV, mass):
+    for name, value in (("barrier_eV", barrier_eV), ("mass", mass)):
+        if np.ndim(value) != 0:
+            raise ValueError(f"{name} must be a single number, got an array of shape {np.shape(value)}")
     if not (np.isfinite(barrier_eV) and barrier_eV > 0):
         raise ValueError(f"barrier_eV must be finite and > 0, got {barrier_eV!r}")
     if not (np.isfinite(mass) and mass > 0):

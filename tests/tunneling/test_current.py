@@ -234,6 +234,8 @@ def test_bad_input_and_failures(monkeypatch):
         current_density(b, float("nan"), 0.0, 300.0)
     with pytest.raises(ValueError, match="temperature_K"):
         current_density(b, 0.1, 0.0, -1.0)
+    with pytest.raises(ValueError, match=r"fermi_right_eV must be a single number, got an array of shape \(2,\)"):
+        current_density(b, 0.1, [0.0, -0.1], 300.0)
     with pytest.raises(ValueError, match="model"):
         current_density(b, 0.1, 0.0, 300.0, model="fast")
     with pytest.raises(ValueError, match="relative_permittivity layer 0"):

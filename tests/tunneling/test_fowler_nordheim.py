@@ -117,6 +117,8 @@ def test_zero_field_and_bad_input():
         fowler_nordheim_current(5.0, 0.0, 0.42)
     with pytest.raises(ValueError, match="mass"):
         fowler_nordheim_current(5.0, 3.2, float("nan"))
+    with pytest.raises(ValueError, match=r"barrier_eV must be a single number, got an array of shape \(2,\)"):
+        fowler_nordheim_current(5.0, [3.2, 3.1], 0.42)
 
 
 def test_barrier_functions_check_values():
