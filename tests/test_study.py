@@ -758,3 +758,29 @@ def test_editing_the_materials_file_makes_another_study(tmp_path):
     assert plan_study(load_case(case_path)).spec_hash == first
     (tmp_path / "ours.toml").write_text('[references]\nLabNotes = "our lab notebook, second entry"\n')
     assert plan_study(load_case(case_path)).spec_hash != first
+
+
+def plate_layers_point(case):
+    out = plate_point(case)
+    out["layer_field_V_nm"] = np.array([1.0, 2.0, 3.0]) * out["field_V_nm"]
+    return out
+
+
+register_computation("test-plate-layers", plate_layers_point,
+                     dict(_OUTPUTS, layer_field_V_nm=Output("V/nm", "per-layer value", ("layer",))),
+                     replace=True)
+
+
+def test_per_layer_array_is_drawn_over_its_own_axis(tmp_path, monkeypatch):
+    # a per-layer array must not borrow the node positions x_nm as its abscissa
+    import solver.plots.study as plots
+
+    path = tmp_path / "s.h5"
+    run_file(path, grid_case(gate=(1.0, 2.0), keep_profiles=True, compute="test-plate-layers"))
+    figures = []
+    monkeypatch.setattr(plots, "save", lambda fig, p: figures.append(fig) or str(p))
+    plots.plot_study(read_study(path), tmp_path, ["layer_field_V_nm", "u_eV"])
+    layer_ax, node_ax = figures[0].axes[0], figures[1].axes[0]
+    assert_array_equal(layer_ax.lines[0].get_xdata(), [0, 1, 2])
+    assert layer_ax.get_xlabel() == "layer index"
+    assert_allclose(node_ax.lines[0].get_xdata(), np.linspace(0.0, 3.0, 13))  # x_nm of the 3 nm point

@@ -192,7 +192,9 @@ def _plot_profiles(d, name, out_dir, stem, at, max_lines=12):
     values = np.asarray(data.values, dtype=float)
     extra = data.dims[len(d.shape):]
     lengths = d.lengths.get(extra[0]) if extra else None
-    xname = next((n for n in d.profiles if n.startswith("x_") and n != name), None)
+    # positions for the abscissa: an "x_..." array over the same axis (none for e.g. per-layer values)
+    xname = next((n for n, p in d.profiles.items()
+                  if n.startswith("x_") and n != name and p.dims[len(d.shape):] == extra), None)
     log = wants_log(name, data.units, d.log_scale.get(name, False))
     fig, ax = new_figure(figsize=(6.0, 4.0))
     ok = np.argwhere(d.completed & ~d.failed)
@@ -208,7 +210,7 @@ def _plot_profiles(d, name, out_dir, stem, at, max_lines=12):
         else:
             tag = ", ".join(f"{a.key}={a.values[i]:.3g}" for a, i in zip(d.axes, pos))
         ax.plot(x, y, linewidth=1.0, label=tag)
-    ax.set_xlabel(_label(xname, d.profiles[xname].units) if xname else "index")
+    ax.set_xlabel(_label(xname, d.profiles[xname].units) if xname else f"{extra[0] if extra else ''} index".strip())
     ax.set_ylabel(_label(name, data.units))
     if logy:
         ax.set_yscale("log")
