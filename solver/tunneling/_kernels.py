@@ -396,7 +396,7 @@ def transmission_kernel(energy_J, thickness_m, u_start_J, u_end_J, mass_kg, lead
     """T at each energy in one call; returns (T, status, index).
 
     status 0: all fine; 1: energy_J[index] is not finite (T not computed);
-    2: T[index] came out non-finite (a kernel failure, never to be hidden).
+    2: T[index] came out non-finite or outside [0, 1] (a kernel failure, never to be hidden).
     """
     for j in range(energy_J.shape[0]):
         if not math.isfinite(energy_J[j]):

@@ -89,9 +89,9 @@ def transmission(barrier: Barrier, energy_eV) -> np.ndarray:
     Raises
     ------
     ValueError
-        If `barrier` is not a Barrier or an energy is not finite.
+        If `barrier` is not a Barrier or an energy is not a finite real number.
     ComputationError
-        If a non-finite T were produced (never returned silently).
+        If a T outside [0, 1] or non-finite were produced (never returned silently).
     """
     require_barrier(barrier, "transmission")
     e_J, shape = energies_J(energy_eV)
