@@ -808,12 +808,17 @@ def bands_point(case) -> dict:
 
     sol = solve(case, case.bias.gate_V)
     subbands = tuple(getattr(sol, "subbands", ()) or ())
-    lowest = min((float(s[1]) for s in subbands), default=float("nan"))
+    # electron valleys and hole bands share one energy scale: the ground state of
+    # the electrons is the lowest electron subband, that of the holes the highest hole one
+    hole_labels = {band.label for band in case.channel.material.hole_bands}
+    electrons = [float(e) for label, e, _ in subbands if label not in hole_labels]
+    holes = [float(e) for label, e, _ in subbands if label in hole_labels]
     return {
         "surface_potential_V": sol.surface_potential_V,
         "fermi_level_eV": sol.fermi_level_eV,
         "semiconductor_charge_C_cm2": sol.semiconductor_charge_C_cm2,
-        "lowest_subband_eV": lowest,
+        "lowest_subband_eV": min(electrons, default=float("nan")),
+        "highest_hole_subband_eV": max(holes, default=float("nan")),
         "iterations": float(sol.iterations),
         "layer_fields_MV_cm": np.asarray(sol.layer_fields_MV_cm, dtype=float),
         "x_nm": sol.x_nm,
@@ -842,7 +847,9 @@ register_computation(
         "surface_potential_V": Output("V", "band bending at the dielectric/channel interface"),
         "fermi_level_eV": Output("eV", "channel Fermi level"),
         "semiconductor_charge_C_cm2": Output("C/cm^2", "net charge per area in the semiconductor"),
-        "lowest_subband_eV": Output("eV", "lowest subband energy (NaN when classical)"),
+        "lowest_subband_eV": Output("eV", "lowest electron subband energy (NaN when classical or none)"),
+        "highest_hole_subband_eV": Output("eV", "highest hole subband energy, the hole ground state "
+                                          "(NaN when classical or none)"),
         "iterations": Output("1", "self-consistent iterations taken"),
         "layer_fields_MV_cm": Output("MV/cm", "field in each dielectric layer, gate first", ("layer",)),
         "x_nm": Output("nm", "node positions", ("node",), profile=True),

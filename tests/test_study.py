@@ -784,3 +784,21 @@ def test_per_layer_array_is_drawn_over_its_own_axis(tmp_path, monkeypatch):
     assert_array_equal(layer_ax.lines[0].get_xdata(), [0, 1, 2])
     assert layer_ax.get_xlabel() == "layer index"
     assert_allclose(node_ax.lines[0].get_xdata(), np.linspace(0.0, 3.0, 13))  # x_nm of the 3 nm point
+
+
+def test_bands_point_ground_states_of_electrons_and_holes():
+    # electron and hole subbands share the electron energy scale: the electron ground
+    # state is the lowest electron subband, the hole ground state the highest hole
+    # subband (hole energy = -electron energy; common practice). Accumulation of the
+    # shipped p-type MOS capacitor quantizes holes only.
+    from solver import solve
+    from solver.case import load_case
+    from solver.study import bands_point
+
+    case = load_case(ROOT / "cases" / "mos-capacitor.toml").with_value(GATE, -2.0)
+    out = bands_point(case)
+    sol = solve(case, -2.0)
+    hole = [e for label, e, _ in sol.subbands if "hole" in label]
+    assert hole and math.isnan(out["lowest_subband_eV"])
+    assert out["highest_hole_subband_eV"] == pytest.approx(max(hole), abs=1e-9) and max(hole) > min(hole)
+    assert out["highest_hole_subband_eV"] < out["fermi_level_eV"]  # accumulated holes: below E_F
