@@ -52,7 +52,11 @@ below the occupied subbands within those 2 nm and the box wall binds carriers
 that would in fact tunnel into the dielectric. A converged solution with more
 than WALL_SHARE_LIMIT (1e-3) of the quantized carriers in the outer half of the
 box's dielectric part (legitimate penetration puts < 1e-4 there) is refused
-with ComputationError rather than returned.
+with ComputationError rather than returned. A planar channel must end in
+neutral bulk: when more than CONTACT_SHARE_LIMIT (1e-3) of the semiconductor
+charge's field reaches the bulk contact, a `[mesh] depth_nm` shorter than the
+depletion region is refused with CaseError (the automatic depth holds the
+widest equilibrium depletion region).
 
 Cylindrical cells use the radial operator with l = 0 and count each subband
 as a 2-D sheet wrapped around the axis at the state's mean radius
@@ -86,8 +90,8 @@ import numpy as np
 
 from solver import statistics as stat
 from solver.electrostatics import Poisson, QuantumCharge
-from solver.errors import ComputationError, ConvergenceError, ConvergenceRecord
-from solver.mesh import Structure, structure_from_case
+from solver.errors import CaseError, ComputationError, ConvergenceError, ConvergenceRecord
+from solver.mesh import Structure, automatic_depth_m, structure_from_case
 from solver.schrodinger import Hamiltonian
 from solver.units import (
     C_PER_M2_TO_C_PER_CM2,
@@ -111,6 +115,7 @@ SUBBANDS_REPORTED = 10      # lowest subbands per valley set listed in Solution.
 SCHRODINGER_MIN_SPACING_M = 0.02e-9
 NEGLIGIBLE_SHEET_M2 = 1e7   # 1e3 carriers per cm^2
 WALL_SHARE_LIMIT = 1e-3     # quantized carriers allowed in the outer half of the box's dielectric part
+CONTACT_SHARE_LIMIT = 1e-3  # field at the planar bulk contact, relative to the semiconductor charge
 TAIL_KT = 12.0              # states are added until the highest lies this far above max(E_F, E_0)
 
 
@@ -557,7 +562,8 @@ def solve(case, gate_V=None, quantum=True, statistics="fermi-dirac") -> Solution
     case's bias.gate_V). `quantum=False`: classical carriers everywhere;
     `statistics="boltzmann"` for Boltzmann carriers. Raises ConvergenceError
     when the solve does not converge, ComputationError when the quantized
-    carriers collect at the quantum box's dielectric wall (module docstring)."""
+    carriers collect at the quantum box's dielectric wall, CaseError when the
+    case's mesh.depth_nm cuts off the depletion region (module docstring)."""
     if gate_V is None:
         gate_V = case.bias.gate_V
     try:
@@ -589,7 +595,8 @@ def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=No
     else:
         phi = np.array(phi0, dtype=float)
     if not quantum:
-        return _solution(prep, gate_V, phi, None, rec, rec.iterations, newton_total, False)
+        return _check_bulk_contact(prep, _solution(prep, gate_V, phi, None, rec, rec.iterations,
+                                                   newton_total, False))
     qc = prep.quantum
     if qc is None:
         raise ValueError("this structure was prepared without quantum operators")
@@ -654,6 +661,27 @@ def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=No
             f"falls below their subbands there, they would tunnel into the dielectric; the bound-state "
             f"channel model does not hold at this bias (the classical channel, quantum=False, still "
             f"applies)")
+    return _check_bulk_contact(prep, sol)
+
+
+def _check_bulk_contact(prep, sol):
+    """The planar channel must end in neutral bulk: the electric flux reaching
+    the bulk contact (phi = 0 held there) must be a negligible part of the
+    semiconductor charge, else mesh.depth_nm cut off the depletion region."""
+    s = prep.structure
+    if s.bulk_node < 0:
+        return sol
+    phi = sol.potential_V
+    flux_C_cm2 = float(s.coef[-1] * (phi[-2] - phi[-1])) * C_PER_M2_TO_C_PER_CM2
+    floor_C_cm2 = Q_C * 1e9   # 1e9 charges per cm^2
+    share = abs(flux_C_cm2) / max(abs(sol.semiconductor_charge_C_cm2), floor_C_cm2)
+    if share > CONTACT_SHARE_LIMIT:
+        depth_nm = (s.x_m[-1] - s.x_m[s.interface_node]) * M_TO_NM
+        auto_nm = automatic_depth_m(s.channel.spec, s.temperature_K) * M_TO_NM
+        raise CaseError(
+            f"mesh.depth_nm: {depth_nm:.4g} nm of channel is too shallow at gate_V = {sol.gate_V:g} V "
+            f"({share:.1%} of the semiconductor charge's field reaches the bulk contact); allowed: a "
+            f"depth beyond the depletion region, e.g. the automatic {auto_nm:.0f} nm (leave it unset)")
     return sol
 
 

@@ -10,7 +10,7 @@ from scipy.optimize import brentq
 from scipy.special import ai_zeros
 
 from solver.case import parse_case
-from solver.errors import ComputationError, ConvergenceError
+from solver.errors import CaseError, ComputationError, ConvergenceError
 from solver.schrodinger import radial_eigenstates
 from solver.selfconsistent import Solution, prepare, solve, solve_structure
 from solver.units import EV_TO_J, HBAR_J_S, M0_KG, Q_C
@@ -277,6 +277,21 @@ def test_quantized_majority_carriers_recover_the_bulk_density(case17):
     assert np.all(np.abs(ratio - 1) < 0.1)
     wall = np.argmin(np.abs(depth - 0.3))
     assert q.hole_density_cm3[wall] < 0.1 * c.hole_density_cm3[wall]
+
+
+def test_channel_depth_shorter_than_the_depletion_region_is_refused():
+    # the maximum depletion width at 1e17 cm^-3 is 103.8 nm (Sze & Ng 2007, Sec. 4.2;
+    # physics-data sheet Sec. 7): a 40 nm deep channel cuts it off in inversion, where
+    # the bulk contact would hold part of the charge; 400 nm holds it
+    base = mos(1e17)
+    shallow = parse_case(base.text + "\n[mesh]\ndepth_nm = 40.0\n")
+    with pytest.raises(CaseError, match=r"mesh.depth_nm: 40 nm of channel is too shallow"):
+        solve(shallow, 1.5, quantum=False)
+    with pytest.raises(CaseError, match=r"mesh.depth_nm"):
+        solve(shallow, 1.5, quantum=True)
+    deep = parse_case(base.text + "\n[mesh]\ndepth_nm = 400.0\n")
+    assert solve(deep, 1.5, quantum=True).inversion_charge_cm2 == pytest.approx(
+        solve(base, 1.5, quantum=True).inversion_charge_cm2, rel=1e-3)
 
 
 def test_carriers_without_band_data_stay_classical():
