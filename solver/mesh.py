@@ -24,7 +24,7 @@ cylindrical geometry, so that "charge" at a node means C/m^2 or C/m/rad):
         planar       c_i = eps_i / h_i
         cylindrical  c_i = eps_i / ln(r_{i+1} / r_i)   (exact for a charge-free
                      coaxial shell); on the link touching the axis
-                     c_0 = eps_0 r_{1/2} / h_0
+                     (the mesh starts there) c_0 = eps_cell_0 r_{1/2} / h_0
     box of node i: from the midpoint of link i-1 to that of link i
         planar       half volumes h_{i-1}/2 and h_i/2
         cylindrical  (r_i^2 - r_{i-1/2}^2)/2 and (r_{i+1/2}^2 - r_i^2)/2
@@ -52,7 +52,7 @@ poly-Si gate   W(E_g + 2 V) of the gate doping plus 8 Debye lengths, >= 10 nm.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -270,8 +270,6 @@ class Structure:
     quantum_blend: np.ndarray           # weight of the quantum density per box node
     channel_side_sign: int              # +1: channel at larger x (planar); -1 (cylinder)
     interfaces_m: tuple[float, ...]     # gate/dielectric ... dielectric/channel, x order
-    axis_at_origin: bool = False
-    extra: dict = field(default_factory=dict)
 
     @property
     def size(self) -> int:
@@ -434,11 +432,10 @@ def build_structure(*, geometry: str, temperature_K: float, layers: tuple[Dielec
         area = np.ones(n)
         ref_area = 1.0
     else:
-        with np.errstate(divide="ignore"):
-            coef = eps_cell / np.log(x[1:] / x[:-1]) if x[0] > 0 else np.empty(n - 1)
-        if x[0] == 0.0:
-            coef[1:] = eps_cell[1:] / np.log(x[2:] / x[1:-1])
-            coef[0] = eps_cell[0] * 0.5 * (x[0] + x[1]) / h[0]
+        # the mesh starts on the axis (x[0] = 0): exact shells beyond the first link
+        coef = np.empty(n - 1)
+        coef[1:] = eps_cell[1:] / np.log(x[2:] / x[1:-1])
+        coef[0] = eps_cell[0] * 0.5 * (x[0] + x[1]) / h[0]
         mid = 0.5 * (x[1:] + x[:-1])
         vol_left = np.zeros(n)
         vol_right = np.zeros(n)
@@ -535,7 +532,7 @@ def build_structure(*, geometry: str, temperature_K: float, layers: tuple[Dielec
         interface_trap_density_m2_J=float(interface_trap_density_m2_J),
         metal_work_function_eV=metal_work_function_eV, layer_regions=tuple(layer_regions),
         quantum_nodes=q_nodes, quantum_blend=blend, channel_side_sign=sign,
-        interfaces_m=interfaces, axis_at_origin=geometry == "cylindrical" and x[0] == 0.0,
+        interfaces_m=interfaces,
     )
     for arr in (x, eps_cell, coef, vol_left, vol_right, cell_region, node_region, fixed, area,
                 q_nodes, blend):
