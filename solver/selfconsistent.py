@@ -43,8 +43,9 @@ states of the potential phi_k, the nonlinear Poisson equation is solved by
 Newton for a quantum density in which every subband energy follows the local
 potential change, E_j(x) = E_j - q (phi(x) - phi_k(x)); the new potential is the
 next phi_k. The outer loop stops when max |phi_{k+1} - phi_k| is below
-`tolerance_V` (default 1e-8 V; each inner Newton solve is converged to 1e-9 V);
-an unconverged solve raises ConvergenceError with the residual history.
+`tolerance_V` (default 1e-8 V; each inner Newton solve is converged to a tenth
+of the last outer update, within 1e-3 .. 1e-9 V); an unconverged solve raises
+ConvergenceError with the residual history.
 
 Validity: the box ends 2 nm inside the adjacent dielectric with psi = 0. At
 tunnel-layer fields near 20 MV/cm and above, the dielectric's band edge falls
@@ -64,9 +65,11 @@ as a 2-D sheet wrapped around the axis at the state's mean radius
 l = 0, +-1, ... of a thin shell are as dense as the 2-D states of a strip
 2 pi <r>_j wide, so a subband with the 2-D sheet density N_j holds
 2 pi <r>_j N_j carriers per unit length, n(r) = <r>_j N_j R_j(r)^2. This holds
-while the subband's thermal angular spread is fine compared with the
-circumference (radius >> the inversion-layer width); populations are reported
-per area of the channel surface, N_j <r>_j / R_channel.
+while the angular level spacing hbar^2/(2 m <r>^2) is small against kT and the
+layer is thin compared with the radius (tests: 0.1 % from the exact sum over l
+for a 3 nm shell at 20 nm, where the channel radius in place of <r> would
+overcount by 8 %). Populations are reported per area of the channel surface,
+N_j <r>_j / R_channel.
 
 Sign conventions of the outputs
 -------------------------------
