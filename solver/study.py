@@ -920,10 +920,6 @@ register_computation(
 )
 
 
-def _warm_program() -> None:
-    _warm_current()
-
-
 def program_point(case) -> dict:
     """V_T of the cell after one program pulse of bias.pulse_s at bias.gate_V,
     from the neutral cell (solver.cell; default cell settings)."""
@@ -950,6 +946,6 @@ register_computation(
         "start_tunnel_field_MV_cm": Output("MV/cm", "tunnel-layer field at the start of the pulse"),
         "end_tunnel_field_MV_cm": Output("MV/cm", "tunnel-layer field at the end of the pulse"),
     },
-    warm_up=_warm_program,
+    warm_up=_warm_current,  # the cell's currents come from the same kernels
     description="program pulse of bias.pulse_s at bias.gate_V from the neutral cell (solver.cell)",
 )
