@@ -11,11 +11,10 @@ the map varies the injecting layer at the case's channel radius.
 from __future__ import annotations
 
 import sys
-from pathlib import Path
 
 import numpy as np
 
-from cli.common import CAUTION, add_quiet, info, table
+from cli.common import CAUTION, add_quiet, info, table, bad_input, output_paths
 
 NAME = "breakdown"
 HELP = "exact vs WKB vs Fowler–Nordheim currents of a stack: J–F, FN plot, T(E), thickness x field map"
@@ -69,26 +68,8 @@ def add_arguments(parser):
     add_quiet(parser)
 
 
-def _bad(message):
-    from solver.errors import CaseError
-
-    return CaseError(message)
-
-
 def _paths(args, case):
-    if args.output:
-        h5 = Path(args.output)
-        stem = h5.with_suffix("")
-        figures = {k: Path(f"{stem}-{v}") for k, v in FIGURES.items()}
-        h5.parent.mkdir(parents=True, exist_ok=True)
-    else:
-        directory = Path(args.output_dir) if args.output_dir else Path(f"{Path(case.source).stem}-breakdown")
-        if directory.exists() and not directory.is_dir():
-            raise _bad(f"--output-dir: {directory} exists and is not a directory")
-        directory.mkdir(parents=True, exist_ok=True)
-        h5 = directory / "breakdown.h5"
-        figures = {k: directory / v for k, v in FIGURES.items()}
-    return h5, figures
+    return output_paths(args, case, "breakdown", FIGURES)
 
 
 def _sweep(args, case, settings):
@@ -96,23 +77,23 @@ def _sweep(args, case, settings):
 
     n = int(args.points)
     if n < 5 or n > 5000:
-        raise _bad(f"--points: {n} is out of range; allowed 5 .. 5000")
+        raise bad_input(f"--points: {n} is out of range; allowed 5 .. 5000")
     gate = args.gate_from is not None or args.gate_to is not None
     field = args.field_from is not None or args.field_to is not None
     if gate and field:
-        raise _bad("--gate-from/--gate-to and --field-from/--field-to: give one sweep, not both")
+        raise bad_input("--gate-from/--gate-to and --field-from/--field-to: give one sweep, not both")
     if gate:
         if args.gate_from is None or args.gate_to is None:
-            raise _bad("--gate-from and --gate-to: give both ends of the gate-voltage sweep")
+            raise bad_input("--gate-from and --gate-to: give both ends of the gate-voltage sweep")
         return None, np.linspace(args.gate_from, args.gate_to, n)
     default = default_fields_MV_cm(case, settings, count=n)
     lo = default[0] if args.field_from is None else args.field_from
     hi = default[-1] if args.field_to is None else args.field_to
     for flag, v in (("--field-from", lo), ("--field-to", hi)):
         if not (np.isfinite(v) and 0 < v <= 100):
-            raise _bad(f"{flag}: {v} MV/cm is out of range; allowed 0 < F <= 100 MV/cm (a magnitude)")
+            raise bad_input(f"{flag}: {v} MV/cm is out of range; allowed 0 < F <= 100 MV/cm (a magnitude)")
     if not hi > lo:
-        raise _bad(f"--field-to: {hi} must be above --field-from {lo}")
+        raise bad_input(f"--field-to: {hi} must be above --field-from {lo}")
     return np.linspace(lo, hi, n), None
 
 
@@ -229,7 +210,7 @@ def run(args) -> int:
     h5, figures = _paths(args, case)
     curve = breakdown_curve(data, field_MV_cm=fields, gate_V=gates, settings=settings)
     if all(r == "none" for r in curve.regime):
-        raise _bad("--gate-from/--gate-to: no point of the sweep emits "
+        raise bad_input("--gate-from/--gate-to: no point of the sweep emits "
                    f"{args.carrier}s from the {args.emitter}; use gate voltages of the other sign")
     if not np.any(np.isfinite(curve.current_exact_A_cm2)):
         raise ComputationError(f"the exact current did not converge at any of the {curve.field_MV_cm.size} "
@@ -243,13 +224,13 @@ def run(args) -> int:
         t_lo = args.map_thickness_from if args.map_thickness_from is not None else min(max(1.0, 0.4 * t0),
                                                                                         0.5 * t_hi)
         if not (0 < t_lo < t_hi <= 100):
-            raise _bad(f"--map-thickness-from/--map-thickness-to: {t_lo}..{t_hi} nm; allowed 0 < from < to <= 100")
+            raise bad_input(f"--map-thickness-from/--map-thickness-to: {t_lo}..{t_hi} nm; allowed 0 < from < to <= 100")
         # the image-force staircase costs several times more per point
         n_t = args.map_thicknesses if args.map_thicknesses is not None else (20 if args.image_force else 40)
         n_f = args.map_fields if args.map_fields is not None else (30 if args.image_force else 60)
         for flag, n in (("--map-thicknesses", n_t), ("--map-fields", n_f)):
             if not 2 <= n <= 1000:
-                raise _bad(f"{flag}: {n} is out of range; allowed 2 .. 1000")
+                raise bad_input(f"{flag}: {n} is out of range; allowed 2 .. 1000")
         f_ok = curve.field_MV_cm[np.isfinite(curve.current_exact_A_cm2)]
         bmap = breakdown_map(data, np.linspace(t_lo, t_hi, n_t),
                              np.linspace(f_ok.min(), f_ok.max(), n_f),
@@ -336,7 +317,7 @@ def run(args) -> int:
     info(args, f"Fowler–Nordheim onset (q V_layer = {curve.barrier_height_eV:.3f} eV): "
                f"{curve.onset_field_MV_cm:.2f} MV/cm; direct tunneling below it")
     rng = curve.interference_range_MV_cm()
-    info(args, f"interference oscillations of the exact current (not in WKB): "
+    info(args, "interference oscillations of the exact current (not in WKB): "
                + (f"{rng[0]:.2f} .. {rng[1]:.2f} MV/cm" if rng else "none resolved in this sweep"))
     if bmap is not None:
         parts = [f"{k.upper() if k != 'trapezoid' else 'trapezoid'} {100 * float(np.mean(bmap.within_factor(k))):.0f} %"

@@ -9,11 +9,10 @@ solver/cell.py.
 """
 from __future__ import annotations
 
-from pathlib import Path
 
 import numpy as np
 
-from cli.common import add_quiet, info, table
+from cli.common import add_quiet, info, table, bad_input, output_paths
 
 NAME = "cell"
 HELP = "charge-trap cell: program / erase transients, ISPP, retention and the threshold window"
@@ -65,49 +64,30 @@ def add_arguments(parser):
     add_quiet(parser)
 
 
-def _bad(message):
-    from solver.errors import CaseError
-
-    return CaseError(message)
-
-
 def _paths(args, case):
-    if args.output:
-        h5 = Path(args.output)
-        if h5.parent != Path(""):
-            h5.parent.mkdir(parents=True, exist_ok=True)
-        stem = h5.with_suffix("")
-        figures = {k: Path(f"{stem}-{v}") for k, v in FIGURES.items()}
-    else:
-        directory = Path(args.output_dir) if args.output_dir else Path(f"{Path(case.source).stem}-cell")
-        if directory.exists() and not directory.is_dir():
-            raise _bad(f"--output-dir: {directory} exists and is not a directory")
-        directory.mkdir(parents=True, exist_ok=True)
-        h5 = directory / "cell.h5"
-        figures = {k: directory / v for k, v in FIGURES.items()}
-    return h5, figures
+    return output_paths(args, case, "cell", FIGURES)
 
 
 def _check(args):
     for flag, v in (("--pulse-s", args.pulse_s), ("--erase-s", args.erase_s), ("--ispp-pulse-s", args.ispp_pulse_s)):
         if not (np.isfinite(v) and 0 < v <= 1e3):
-            raise _bad(f"{flag}: {v:g} s is out of range; allowed 0 < pulse <= 1000 s")
+            raise bad_input(f"{flag}: {v:g} s is out of range; allowed 0 < pulse <= 1000 s")
     if not (np.isfinite(args.program_V) and 0 < args.program_V <= 60):
-        raise _bad(f"--program-V: {args.program_V:g} V is out of range; allowed 0 < V <= 60")
+        raise bad_input(f"--program-V: {args.program_V:g} V is out of range; allowed 0 < V <= 60")
     if not (np.isfinite(args.erase_V) and -60 <= args.erase_V < 0):
-        raise _bad(f"--erase-V: {args.erase_V:g} V is out of range; allowed -60 <= V < 0 (a negative gate)")
+        raise bad_input(f"--erase-V: {args.erase_V:g} V is out of range; allowed -60 <= V < 0 (a negative gate)")
     if not (np.isfinite(args.retention_K) and 200 <= args.retention_K <= 600):
-        raise _bad(f"--retention-K: {args.retention_K:g} K is out of range; allowed 200 .. 600 K")
+        raise bad_input(f"--retention-K: {args.retention_K:g} K is out of range; allowed 200 .. 600 K")
     if not (np.isfinite(args.retention_years) and 1e-6 <= args.retention_years <= 100):
-        raise _bad(f"--retention-years: {args.retention_years:g} is out of range; allowed 1e-6 .. 100")
+        raise bad_input(f"--retention-years: {args.retention_years:g} is out of range; allowed 1e-6 .. 100")
     if not 2 <= args.ispp_count <= 200:
-        raise _bad(f"--ispp-count: {args.ispp_count} is out of range; allowed 2 .. 200")
+        raise bad_input(f"--ispp-count: {args.ispp_count} is out of range; allowed 2 .. 200")
     if not (np.isfinite(args.ispp_step_V) and 0 < args.ispp_step_V <= 5):
-        raise _bad(f"--ispp-step-V: {args.ispp_step_V:g} V is out of range; allowed 0 < step <= 5 V")
+        raise bad_input(f"--ispp-step-V: {args.ispp_step_V:g} V is out of range; allowed 0 < step <= 5 V")
     if not (np.isfinite(args.ispp_start_V) and 0 < args.ispp_start_V <= 60):
-        raise _bad(f"--ispp-start-V: {args.ispp_start_V:g} V is out of range; allowed 0 < V <= 60")
+        raise bad_input(f"--ispp-start-V: {args.ispp_start_V:g} V is out of range; allowed 0 < V <= 60")
     if not (np.isfinite(args.trap_spread_eV) and 0 <= args.trap_spread_eV <= 1):
-        raise _bad(f"--trap-spread-eV: {args.trap_spread_eV:g} is out of range; allowed 0 .. 1 eV")
+        raise bad_input(f"--trap-spread-eV: {args.trap_spread_eV:g} is out of range; allowed 0 .. 1 eV")
 
 
 def _data(values, units, dims=(), description=""):

@@ -22,7 +22,6 @@ def _g(v, fmt="{:.3g}"):
 
 
 def run(args) -> int:
-    from solver.errors import CaseError
     from solver.materials import load_materials
 
     lib = load_materials(args.materials_file)

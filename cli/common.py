@@ -29,3 +29,27 @@ def info(args, *text):
 
 def err(*text):
     print(*text, file=sys.stderr)
+
+
+def bad_input(message):
+    """A CaseError for a refused command-line option (exit code 2)."""
+    from solver.errors import CaseError
+
+    return CaseError(message)
+
+
+def output_paths(args, case, kind: str, figures: dict):
+    """(HDF5 path, {figure key: PNG path}) from `--output FILE.h5` (figures beside it as
+    FILE-<name>.png) or `--output-dir DIR` (default ./<case name>-<kind>/, holding <kind>.h5)."""
+    from pathlib import Path
+
+    if args.output:
+        h5 = Path(args.output)
+        h5.parent.mkdir(parents=True, exist_ok=True)
+        stem = h5.with_suffix("")
+        return h5, {k: Path(f"{stem}-{v}") for k, v in figures.items()}
+    directory = Path(args.output_dir) if args.output_dir else Path(f"{Path(case.source).stem}-{kind}")
+    if directory.exists() and not directory.is_dir():
+        raise bad_input(f"--output-dir: {directory} exists and is not a directory")
+    directory.mkdir(parents=True, exist_ok=True)
+    return directory / f"{kind}.h5", {k: directory / v for k, v in figures.items()}

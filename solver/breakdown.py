@@ -254,12 +254,6 @@ class BreakdownCurve:
     temperature_K: float
     failed_points: int = 0
 
-    @property
-    def relaxed_points(self) -> int:
-        """Always 0: every integral meets ``rtol`` or current_density's absolute
-        floor; no point is integrated to a looser tolerance."""
-        return 0
-
     def ratio(self, approximation: str) -> np.ndarray:
         """J_exact / J_approximation for "wkb", "fn" or "trapezoid"."""
         if approximation not in APPROXIMATIONS:

@@ -53,7 +53,6 @@ def channel_work_function_eV(case) -> float:
     sc = ch.material
     kt = BOLTZMANN_EV_K * T
     net = ch.donors_cm3 - ch.acceptors_cm3
-    eg = sc.band_gap_eV(T)
     ni = sc.intrinsic_density_cm3(T)
     # Fermi level from charge neutrality n - p = net with n p = ni^2 (Boltzmann)
     n = 0.5 * (net + math.sqrt(net * net + 4 * ni * ni)) if net > 0 else ni * ni / (0.5 * (-net + math.sqrt(net * net + 4 * ni * ni)))

@@ -11,9 +11,9 @@ from __future__ import annotations
 import copy
 import math
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Mapping
+from typing import Mapping
 
 from solver.errors import CaseError, did_you_mean
 from solver.units import BOLTZMANN_EV_K
