@@ -20,7 +20,9 @@ tridiagonal problem solved by `scipy.linalg.eigh_tridiagonal` for only the
 lowest `count` states (bisection + inverse iteration). sum_i w_i psi_i^2 = 1
 is exactly the trapezoid integral of psi^2 (psi vanishes at both ends).
 Eigenvalues converge at second order in the spacing on uniform grids and on
-smoothly graded ones.
+smoothly graded ones. A mass step on a node (nodal averages would be first
+order there): `link_mass` gives each link its own material's mass, and with
+the box average of U on the step node the scheme stays second order.
 
 Cylindrical-radial operator for a state psi(r, theta) = R(r) exp(i l theta) / sqrt(2 pi):
 
@@ -36,7 +38,7 @@ eigenstates(x_nm, u_eV, mass, count)            contract function (trade units)
 eigenstates_si(x_m, u_J, mass, count)           the same in SI
 radial_eigenstates(r_nm, u_eV, mass, count, angular_momentum=0)
 radial_eigenstates_si(r_m, u_J, mass, count, angular_momentum=0)
-Hamiltonian.planar(x_m, mass) / Hamiltonian.radial(r_m, mass, angular_momentum)
+Hamiltonian.planar(x_m, mass, link_mass=None) / Hamiltonian.radial(r_m, mass, l, link_mass=None)
                                                  operator prepared once on a fixed
                                                  grid and mass; `.solve(u_J, count)`
                                                  changes only the diagonal (for the
@@ -100,6 +102,20 @@ def _as_nodal(values, name: str, n: int, *, positive: bool = False) -> np.ndarra
     if positive and not np.all(arr > 0):
         i = int(np.argmax(~(arr > 0)))
         raise ValueError(f"{name} must be > 0 (units of m0), got {arr[i]} at index {i}")
+    return arr
+
+
+def _link_masses(mass, link_mass, n: int) -> np.ndarray:
+    """Mass on every link: `link_mass` (one per link, m0) when given, else the
+    arithmetic mean of the nodal masses (exact for a step midway)."""
+    if link_mass is None:
+        return 0.5 * (mass[:-1] + mass[1:])
+    arr = np.asarray(link_mass, dtype=float)
+    if arr.shape != (n - 1,):
+        raise ValueError(f"link_mass must have one value per link ({n - 1}), got shape {arr.shape}")
+    if not np.all(np.isfinite(arr) & (arr > 0)):
+        i = int(np.argmax(~(np.isfinite(arr) & (arr > 0))))
+        raise ValueError(f"link_mass must be finite and > 0 (units of m0), got {arr[i]} at index {i}")
     return arr
 
 
@@ -173,14 +189,18 @@ class Hamiltonian:
 
     # -- constructors
     @classmethod
-    def planar(cls, x_m, mass) -> "Hamiltonian":
+    def planar(cls, x_m, mass, link_mass=None) -> "Hamiltonian":
         """Planar operator on nodes `x_m` (m, strictly increasing) with nodal
-        masses `mass` (units of m0, scalar or one per node); psi = 0 at both ends."""
+        masses `mass` (units of m0, scalar or one per node); psi = 0 at both ends.
+        `link_mass` (one per link) replaces the link averages of the nodal
+        masses, e.g. for a mass step on a node: the links on either side then
+        carry their own material's mass (give that node the box-averaged
+        potential as well, and the scheme stays second order)."""
         x = _as_grid(x_m, "x_m")
         m = _as_nodal(mass, "mass", x.size, positive=True)
         x_nm = x / NM_TO_M
         h = np.diff(x_nm)
-        m_link = 0.5 * (m[:-1] + m[1:])
+        m_link = _link_masses(m, link_mass, x.size)
         c = _KINETIC_EV_NM2 / (m_link * h)  # eV per link
         diag = np.zeros(x.size)
         diag[1:-1] = c[:-1] + c[1:]
@@ -191,9 +211,10 @@ class Hamiltonian:
         return cls(x.copy(), c[1:-1], diag, weights, unknowns, "planar", 0)
 
     @classmethod
-    def radial(cls, r_m, mass, angular_momentum: int = 0) -> "Hamiltonian":
+    def radial(cls, r_m, mass, angular_momentum: int = 0, link_mass=None) -> "Hamiltonian":
         """Cylindrical-radial operator for angular momentum l = `angular_momentum`
-        on radii `r_m` (m, strictly increasing, r_m[0] >= 0).
+        on radii `r_m` (m, strictly increasing, r_m[0] >= 0); `link_mass` as in
+        `planar`.
 
         Boundaries: R = 0 at the outer radius. At the inner end R = 0 too,
         except for l = 0 with r_m[0] == 0 (the axis), where regularity
@@ -213,7 +234,7 @@ class Hamiltonian:
         r_nm = r / NM_TO_M
         h = np.diff(r_nm)
         r_mid = 0.5 * (r_nm[:-1] + r_nm[1:])
-        m_link = 0.5 * (m[:-1] + m[1:])
+        m_link = _link_masses(m, link_mass, r.size)
         c = _KINETIC_EV_NM2 * r_mid / (m_link * h)
         n = r.size
         # Box edges: the node itself at both ends, link midpoints inside.

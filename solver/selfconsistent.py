@@ -277,11 +277,33 @@ class _Valleys:
         # Schrödinger grid: the box nodes thinned to a spacing of at least
         # SCHRODINGER_MIN_SPACING_M (the Poisson mesh may be far finer at the
         # interface than the wavefunctions need), keeping the box ends and the
-        # dielectric/channel interface node (the mass step)
-        iface = int(np.searchsorted(q, s.interface_node))
-        sub = _thin(x, SCHRODINGER_MIN_SPACING_M, keep=(iface,))
+        # channel's boundary nodes (the mass and band steps)
+        boundary = [int(np.searchsorted(q, k)) for k in (s.channel.nodes[0], s.channel.nodes[-1])
+                    if k in set(q.tolist())]
+        sub = _thin(x, SCHRODINGER_MIN_SPACING_M, keep=boundary)
         self.sub = sub
         xs = x[sub]
+        # A step sits on a channel boundary node: each link carries its own
+        # material's mass, and the step node the box average of the band edge
+        # (second order, see Hamiltonian.planar)
+        semi = in_semi[sub]
+        link_semi = semi[:-1] & semi[1:]
+        diel_sub = diel_mass[sub]
+        link_diel_mass = np.where(~semi[:-1], diel_sub[:-1], diel_sub[1:])
+        u0 = (-chi if carrier == "e" else chi + gap)[sub]
+        if radial:
+            mid = 0.5 * (xs[:-1] + xs[1:])
+            left = np.concatenate(([0.0], 0.5 * (xs[1:] ** 2 - mid**2)))
+            right = np.concatenate((0.5 * (mid**2 - xs[:-1] ** 2), [0.0]))
+        else:
+            left = np.concatenate(([0.0], 0.5 * np.diff(xs)))
+            right = np.concatenate((0.5 * np.diff(xs), [0.0]))
+        u0_box = u0.copy()
+        for k in np.nonzero(semi)[0]:
+            lo = u0[k - 1] if k > 0 and not semi[k - 1] else u0[k]
+            hi = u0[k + 1] if k + 1 < semi.size and not semi[k + 1] else u0[k]
+            if (lo != u0[k] or hi != u0[k]) and left[k] + right[k] > 0:
+                u0_box[k] = (left[k] * lo + right[k] * hi) / (left[k] + right[k])
         j = np.clip(np.searchsorted(xs, x, side="right") - 1, 0, xs.size - 2)
         self._ij = j
         self._wj = (x - xs[j]) / (xs[j + 1] - xs[j])
@@ -300,11 +322,14 @@ class _Valleys:
         self.valleys = []
         for v in bands:
             mass = np.where(in_semi, v.quantization_mass, diel_mass)[sub]
-            ham = Hamiltonian.radial(xs, mass, 0) if radial else Hamiltonian.planar(xs, mass)
+            link_mass = np.where(link_semi, v.quantization_mass, link_diel_mass)
+            ham = (Hamiltonian.radial(xs, mass, 0, link_mass=link_mass) if radial
+                   else Hamiltonian.planar(xs, mass, link_mass=link_mass))
             dos = float(stat.subband_dos_m2_J(v.degeneracy, v.dos_mass)) * self.dos_factor
             self.valleys.append(dict(valley=v, ham=ham, dos=dos, count=min(8, ham.unknowns.size)))
-        # potential energy at phi = 0: electrons E_c0 + offset, holes -(E_v0) + offset
-        self.u0 = -chi if carrier == "e" else chi + gap
+        # potential energy at phi = 0 on the Schrödinger grid: electrons E_c0,
+        # holes -E_v0 (plus the valley offset in `solve`)
+        self.u0 = u0_box
         self.sign = 1.0 if carrier == "e" else -1.0   # U = u0 - sign q phi
         self.radial = radial
         self.scale = s.reference_area if radial else 1.0
@@ -316,7 +341,7 @@ class _Valleys:
         per reference area, dos per state). In a cylinder a state's 2-D DOS
         counts per area at its mean radius <r>_j, i.e. dos * <r>_j / R_channel
         per area of the channel surface (module docstring)."""
-        u_base = (self.u0 - self.sign * Q_C * phi_box)[self.sub]
+        u_base = self.u0 - self.sign * Q_C * phi_box[self.sub]
         ef = fermi_J if self.carrier == "e" else -fermi_J  # hole-energy scale
         out = []
         for d in self.valleys:

@@ -173,6 +173,36 @@ def test_finite_well_mass_step_midway_second_order():
     assert np.all(orders(errs) > 1.9)
 
 
+def test_finite_well_mass_step_on_a_node_with_link_masses_second_order():
+    # Steps at +-a/2 exactly on nodes: each link carries its own material's mass and the
+    # step node the box average of U (half well, half barrier), against the
+    # BenDaniel-Duke levels above; the nodal-mass average alone would be first order here
+    a, V0, mw, mb = 10.0, 0.5, 0.067, 0.092
+    exact = finite_well_levels(a, V0, mw, mb, 3)
+    errs, errs_nodal = [], []
+    for half in (16, 32, 64):
+        h = (a / 2) / half
+        N = int(round(25.0 / h))
+        x = h * np.arange(-N, N + 1)
+        inside = np.abs(x) < a / 2 - 1e-9 * h
+        step = np.abs(np.abs(x) - a / 2) < 1e-9 * h
+        u = np.where(inside, 0.0, V0)
+        u[step] = 0.5 * V0
+        mid = 0.5 * (x[:-1] + x[1:])
+        link_mass = np.where(np.abs(mid) < a / 2, mw, mb)
+        m = np.where(inside | step, mw, mb)
+        ham = Hamiltonian.planar(x * NM_TO_M, m, link_mass=link_mass)
+        E = ham.solve(u * EV_TO_J, 3)[0] / EV_TO_J
+        errs.append(np.max(np.abs(E - exact) / exact))
+        E_nodal = eigenstates(x, u, m, 3)[0]
+        errs_nodal.append(np.max(np.abs(E_nodal - exact) / exact))
+    assert errs[-1] < 5e-4
+    assert np.all(orders(errs) > 1.9)
+    assert np.all(orders(errs_nodal) < 1.5)  # first order without the link masses
+    with pytest.raises(ValueError, match="link_mass must have one value per link"):
+        Hamiltonian.planar(x * NM_TO_M, m, link_mass=link_mass[:-1])
+
+
 def test_mass_step_flux_continuity():
     # BenDaniel & Duke 1966: (1/m) psi' continuous across the step; compare the
     # one-sided slopes next to the interface in the finest grid.
