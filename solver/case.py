@@ -20,7 +20,8 @@ Schema (keys carry their unit; layers are listed from the gate to the channel):
     [mesh]       interface_spacing_nm, max_spacing_nm, growth, depth_nm, quantum_depth_nm
     [bias]       gate_V, sweep_start_V, sweep_stop_V, sweep_count, pulse_s
     [materials.NAME]  per-case overrides or new materials (see solver.materials)
-    [study]      mode, compute, keep_profiles, outputs; [[study.axis]] key + values or start/stop/count/spacing
+    [study]      mode, compute, keep_profiles, outputs; [[study.axis]] key + values or start/stop/count/spacing;
+                 values = "literature" sweeps a material parameter over its (low, default, high)
 """
 from __future__ import annotations
 
@@ -551,6 +552,24 @@ def _parse_bias(t) -> Bias:
     return Bias(gate, start, stop, count, pulse)
 
 
+def _literature_values(case: Case, key: str, where: str) -> list[float]:
+    """(low, default, high) of a library parameter: the spread seen in the literature."""
+    parts = _split(key)
+    if parts[0] != "materials" or len(parts) != 3:
+        raise CaseError(f"{where}.values: \"literature\" needs a key materials.<material>.<parameter>, got {key!r}")
+    name, param = parts[1], parts[2]
+    params = case.materials.parameters.get(name)
+    if params is None:
+        raise CaseError(f"{where}.key: unknown material {name!r}.{_hint(name, case.materials)}")
+    if param not in params:
+        raise CaseError(f"{where}.key: {name} has no parameter {param!r}.{_hint(param, params)}")
+    p = params[param]
+    if p.low is None or p.low == p.high:
+        raise CaseError(f"{where}.values: {name}.{param} has no literature range in the materials data; "
+                        "give the values as a list")
+    return sorted({p.low, p.value, p.high})
+
+
 def _parse_study(t, case: Case) -> Study:
     _check_keys(t, STUDY_KEYS, "study")
     mode = _string(t, "mode", "study", default="grid", choices=("grid", "zip"))
@@ -581,6 +600,8 @@ def _parse_study(t, case: Case) -> Study:
                 if other in at:
                     raise CaseError(f"{where}.{other}: give either values or start/stop/count, not both")
             vals = at["values"]
+            if vals == "literature":
+                vals = _literature_values(case, key, where)
             if not isinstance(vals, list) or not vals:
                 raise CaseError(f"{where}.values: expected a non-empty list of numbers, got {_fmt(vals)}")
             values = []

@@ -95,3 +95,15 @@ def test_poly_gate_and_cylinder():
     assert case.gate.work_function_eV == pytest.approx(4.05, abs=0.1)
     cyl = load_case(CASES / "demo-cell-cylindrical.toml")
     assert cyl.geometry.kind == "cylindrical" and cyl.geometry.core_material.name == "SiO2"
+
+
+def test_literature_range_axis():
+    # the spread of the SiO2 tunneling mass seen in the literature (0.30-0.61, physics data sheet Sec. 3.2)
+    base = (CASES / "demo-cell.toml").read_text()
+    text = base.replace('key = "layers.tunnel.thickness_nm"\nstart = 3.0\nstop = 6.0\ncount = 7',
+                        'key = "materials.SiO2.electron_mass"\nvalues = "literature"')
+    case = parse_case(text)
+    assert case.study.axes[0].values == (0.30, 0.50, 0.61)
+    with pytest.raises(CaseError, match=r'"literature" needs a key materials'):
+        parse_case(base.replace('key = "bias.gate_V"\nstart = 10.0\nstop = 20.0\ncount = 11',
+                                'key = "bias.gate_V"\nvalues = "literature"'))
