@@ -10,11 +10,12 @@ probability T(E_i) of one impact, so the emission current per area is
 
     J = q sum_i N_i f_i T(E_i)
 
-(the usual treatment of gate leakage from inversion layers, common practice;
-e.g. the quasi-bound-state lifetime tau_i = 1/(f_i T_i) of Ando, Fowler,
-Stern, Rev. Mod. Phys. 54, 437 (1982), and Sec. 6 of Stern's review-type
-treatments of the triangular well). N_i is the 2-D Fermi–Dirac population of
-the subband, which already integrates over the transverse energy; T is taken
+(the quasi-bound-state or impact-frequency treatment of tunneling from
+inversion layers, common practice; 1/(f_i T_i) is the lifetime of the
+quasi-bound state). N_i is the 2-D Fermi–Dirac population of the subband
+(Ando, Fowler, Stern, Rev. Mod. Phys. 54, 437 (1982), Sec. III, as in
+`solver.selfconsistent`), which already integrates over the transverse
+energy, so this sum is the transverse-energy-integrated form; T is taken
 at the longitudinal energy E_i alone (the transverse kinetic energy does not
 enter the barrier: the standard approximation of the subband picture, exact
 when the transverse masses of channel and dielectric are equal).
@@ -72,6 +73,20 @@ Tsu–Esaki estimate on the same layers uses the classical channel lead of
 `stack_data` (band edge at the surface, the lead/supply mass of the material)
 with the channel Fermi level: the comparison the subband picture is meant to
 refine.
+
+Subband against 3-D on the same barrier (measured on the shipped cases,
+tests/tunneling/test_subband.py): quantization has two effects of definite
+sign. It reduces the supply: the subbands strike the interface
+(sum N_i f_i) 3-6 times less often than the 3-D Fermi gas at the surface band
+edge, which in strong inversion is strongly degenerate and holds far more
+carriers than the channel does. It raises the emitting energy: every subband
+lies above the surface band edge, so the mean escape probability per impact
+is higher (here ~10x, mostly the 4-fold valleys with their light m_z = 0.19).
+The net is within an order of magnitude; on the demo cell at 10-16 V and the
+MOS capacitor in inversion the subband current comes out 1.6-4x above the
+3-D estimate. The 3-D figure depends on the assumed lead mass of the channel
+material (Si tunnel_mass 0.5, range 0.3-1.0 in the data), so the sign of the
+net difference is not a property of the model and is not relied on.
 
 Energies of the Barrier are on the scale of `tunneling.stack` (channel Fermi
 level at 0; hole picture for holes). Reported subband energies are those of
