@@ -19,6 +19,11 @@ def add_arguments(parser):
                         help="Boltzmann statistics instead of Fermi–Dirac")
     parser.add_argument("--output", metavar="FILE.h5", default=None, help="write the results (HDF5)")
     parser.add_argument("--figure", metavar="FILE.png", default=None, help="write the band diagram (PNG)")
+    parser.add_argument("--current", action="store_true",
+                        help="also the tunneling current the channel emits through the stack: per subband "
+                             "(exact and WKB transmission) and the 3-D Tsu–Esaki estimate on the same "
+                             "self-consistent barrier (electrons for a positive tunnel-layer field, holes "
+                             "for a negative one)")
     add_quiet(parser)
 
 
@@ -225,6 +230,68 @@ def _format_summary(solution, case) -> str:
     return "\n".join(lines)
 
 
+# ---------------------------------------------------------------------- --current
+def emitted_carrier(solution) -> str:
+    """The carrier the channel emits toward the gate: electrons when the field in
+    the channel-side layer points to the channel (gate positive), else holes."""
+    return "electron" if solution.layer_fields_MV_cm[-1] >= 0 else "hole"
+
+
+def current_group(result):
+    """The store group of a SubbandCurrent (solver.tunneling.subband)."""
+    sb = ("subband",)
+    arr = np.asarray
+    per = {
+        "valley": (np.array(result.valley, dtype=object), "1", "valley set or hole band"),
+        "energy_eV": (arr(result.energy_eV), "eV", "subband energy (scale of the band edges)"),
+        "population_cm2": (arr(result.population_cm2), "cm^-2", "carriers per area in the subband"),
+        "quantization_mass": (arr(result.quantization_mass), "m0", "mass along the quantization axis"),
+        "impact_frequency_Hz": (arr(result.impact_frequency_transit_Hz), "Hz",
+                                "impacts on the interface per second (semiclassical transit time)"),
+        "impact_frequency_wavefunction_Hz": (arr(result.impact_frequency_wavefunction_Hz), "Hz",
+                                             "impacts per second from the wavefunction at the interface "
+                                             "(cross-check)"),
+        "transmission": (arr(result.transmission), "1", "exact transmission at the subband energy"),
+        "transmission_wkb": (arr(result.transmission_wkb), "1", "WKB transmission at the subband energy"),
+        "current_A_cm2": (arr(result.current_A_cm2), "A/cm^2", "emission current of the subband, exact T"),
+        "current_wkb_A_cm2": (arr(result.current_wkb_A_cm2), "A/cm^2", "emission current of the subband, WKB T"),
+    }
+    group = {name: _data(v, u, sb, d) for name, (v, u, d) in per.items()}
+    for name, value, desc in (
+            ("total_A_cm2", result.total_A_cm2, "subband-resolved emission current, exact T"),
+            ("total_wkb_A_cm2", result.total_wkb_A_cm2, "subband-resolved emission current, WKB T"),
+            ("tsu_esaki_A_cm2", result.tsu_esaki_A_cm2,
+             "3-D Tsu–Esaki current on the same barrier (classical channel lead), exact T"),
+            ("tsu_esaki_wkb_A_cm2", result.tsu_esaki_wkb_A_cm2, "3-D Tsu–Esaki current, WKB T")):
+        group[name] = _data(float(value), "A/cm^2", (), desc + "; positive: emission from the channel")
+    return group
+
+
+def _format_current(result, solution) -> str:
+    from cli.common import CAUTION
+
+    ef = solution.fermi_level_eV
+    lines = ["", f"tunneling current emitted by the channel ({result.carrier}s; positive: from the channel "
+                 f"toward the gate; impact frequency from the transit time)"]
+    if result.valley:
+        keep = [k for k in range(len(result.valley))
+                if result.population_cm2[k] >= 1e-3 * result.population_cm2.max()]
+        rows = [(result.valley[k], f"{(result.energy_eV[k] - ef) * 1e3:+.1f}",
+                 f"{result.population_cm2[k]:.3e}", f"{result.impact_frequency_Hz[k]:.3e}",
+                 f"{result.transmission[k]:.3e}", f"{result.transmission_wkb[k]:.3e}",
+                 f"{result.current_A_cm2[k]:.3e}", f"{result.current_wkb_A_cm2[k]:.3e}") for k in keep]
+        lines.append(table(rows, ["valley", "E-E_F_meV", "population_cm2", "impact_Hz", "T_exact", "T_wkb",
+                                  "J_exact_A_cm2", "J_wkb_A_cm2"]))
+        lines.append(f"({len(keep)} of {len(result.valley)} subbands listed; the store has every one)")
+    else:
+        lines.append(f"no quantized {result.carrier} subbands: no subband current")
+    lines.append(f"subband total    exact {result.total_A_cm2:+.4e} A/cm^2   WKB {result.total_wkb_A_cm2:+.4e} A/cm^2")
+    lines.append(f"3-D Tsu–Esaki    exact {result.tsu_esaki_A_cm2:+.4e} A/cm^2   WKB "
+                 f"{result.tsu_esaki_wkb_A_cm2:+.4e} A/cm^2  (same barrier, classical channel lead)")
+    lines.append(CAUTION)
+    return "\n".join(lines)
+
+
 def run(args) -> int:
     from solver import load_case, solve
 
@@ -234,12 +301,24 @@ def run(args) -> int:
     statistics = "boltzmann" if args.boltzmann else "fermi-dirac"
     solution = solve(case, gate_V, quantum=quantum, statistics=statistics)
     info(args, _format_summary(solution, case))
+    emitted = None
+    if getattr(args, "current", False):
+        from solver.tunneling.subband import channel_subband_current
+
+        emitted = channel_subband_current(case, solution, carrier=emitted_carrier(solution))
+        info(args, _format_current(emitted, solution))
     if args.output:
         from solver.store import write_run
 
+        groups = band_groups(solution, case)
+        attrs = {"gate_V": gate_V, "quantum": quantum, "statistics": statistics}
+        if emitted is not None:
+            from solver.caution import CAUTION
+
+            groups["current"] = current_group(emitted)
+            attrs.update(current_carrier=emitted.carrier, caution=CAUTION)
         path = write_run(args.output, case_text=case.text, command=command_line(args, NAME),
-                         groups=band_groups(solution, case),
-                         attrs={"gate_V": gate_V, "quantum": quantum, "statistics": statistics})
+                         groups=groups, attrs=attrs)
         info(args, f"wrote {path}")
     if args.figure:
         from solver.plots.bands import band_diagram
