@@ -135,3 +135,37 @@ def test_cv_names_the_case_key_when_the_sweep_comes_from_the_case(tmp_path):
     proc = _run_cli("cv", str(short), "--quiet")
     assert proc.returncode == 2
     assert proc.stderr.strip().count("\n") == 0 and "bias.sweep_count" in proc.stderr
+
+
+def test_bands_current_prints_and_stores_the_emission(tmp_path, capsys):
+    # program-like bias on the MOS capacitor: electrons leave the inversion layer
+    out = tmp_path / "current.h5"
+    assert main(["bands", str(MOS), "--gate-V", "3.5", "--current", "--output", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert "tunneling current emitted by the channel" in text and "3-D Tsu–Esaki" in text
+    assert "estimates" in text  # the caution line
+    run = read_run(out)
+    assert run["attrs"]["current_carrier"] == "electron" and "estimates" in run["attrs"]["caution"]
+    cur = run["groups"]["current"]
+    j, n = cur["current_A_cm2"], cur["population_cm2"]
+    assert j.units == "A/cm^2" and j.dims == ("subband",) and n.units == "cm^-2"
+    assert cur["impact_frequency_Hz"].units == "Hz"
+    # the total is the sum of the subbands (J = q sum N_i f_i T_i) and positive (emission)
+    total = float(cur["total_A_cm2"].values)
+    assert total > 0
+    assert_allclose(total, j.values.sum(), rtol=1e-12)
+    # J_i = q N_i f_i T_i (scipy.constants.e), with no back-flow far from equilibrium
+    q = 1.602176634e-19
+    assert_allclose(j.values, q * n.values * cur["impact_frequency_Hz"].values * cur["transmission"].values,
+                    rtol=1e-12)
+    assert 0.1 < total / float(cur["tsu_esaki_A_cm2"].values) < 10.0
+
+
+def test_bands_current_classical_has_no_subband_current(tmp_path, capsys):
+    out = tmp_path / "classical.h5"
+    assert main(["bands", str(MOS), "--gate-V", "2.0", "--classical", "--current", "--output", str(out),
+                 "--quiet"]) == 0
+    assert capsys.readouterr().out == ""
+    cur = read_run(out)["groups"]["current"]
+    assert cur["current_A_cm2"].values.shape == (0,)
+    assert float(cur["total_A_cm2"].values) == 0.0 and float(cur["tsu_esaki_A_cm2"].values) > 0
