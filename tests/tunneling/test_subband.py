@@ -269,3 +269,16 @@ def test_bad_names():
         channel_subband_current(MOS, sol, impact="guess")
     w = channel_subband_current(MOS, sol, impact="wavefunction", tsu_esaki=False)
     assert_allclose(w.impact_frequency_Hz, w.impact_frequency_wavefunction_Hz)
+
+
+def test_cylindrical_cell_program_bias():
+    # coaxial cell: the barrier follows the ln r profile of the stack (Jackson, Gauss's
+    # law in a cylinder), the impacts run along the radius into the channel
+    case = load_case(ROOT / "cases" / "demo-cell-cylindrical.toml")
+    sol = solve(case, 12.0)
+    r = channel_subband_current(case, sol)
+    assert r.total_A_cm2 > 0 and 0.1 < r.total_A_cm2 / r.tsu_esaki_A_cm2 < 10.0
+    assert len(r.barrier.barrier.thickness_nm) > len(case.layers)  # the ln r pieces
+    held = r.population_cm2 > 0.01 * r.population_total_cm2
+    q = r.impact_frequency_wavefunction_Hz[held] / r.impact_frequency_transit_Hz[held]
+    assert np.all((q > 0.5) & (q < 2.0))
