@@ -92,7 +92,12 @@ effects and the order of magnitude, not the sign of the net difference.
 
 Energies of the Barrier are on the scale of `tunneling.stack` (channel Fermi
 level at 0; hole picture for holes). Reported subband energies are those of
-`Solution.subbands`. Currents are per area of the channel surface, positive
+`Solution.subbands`. In a cylinder the impacts run along the radius, with
+the radial band edge and the solution's |psi|^2 (normalised along the
+radius), and the populations are per area of the channel surface: the planar
+picture applied locally, valid while the channel radius is large against the
+inversion layer (as the selfconsistent sheet rule). Currents are per area of
+the channel surface, positive
 for net emission of the carrier from the channel toward the gate (as every
 StackBarrier current).
 
@@ -118,6 +123,7 @@ __all__ = [
     "transit_impact_frequency_Hz",
     "wavefunction_impact_frequency_Hz",
     "interface_amplitude",
+    "net_emission_factor",
 ]
 
 IMPACT_FORMS = ("transit-time", "wavefunction")
