@@ -263,12 +263,13 @@ def _poole_frenkel_beta_eV(optical_permittivity: float) -> float:
 def thermal_emission_rate_Hz(trap_depth_eV, temperature_K, attempt_frequency_Hz=1e13, *,
                              field_MV_cm=0.0, optical_permittivity=None):
     """nu exp(-E/kT) (1/s), E = trap_depth_eV, lowered by Poole–Frenkel
-    beta sqrt(F) when ``optical_permittivity`` is given (physics-data Sec. 3.4,
-    Sec. 6 item 14)."""
+    beta sqrt(F) (not below 0) when ``optical_permittivity`` is given
+    (physics-data Sec. 3.4, Sec. 6 item 14)."""
     depth = np.asarray(trap_depth_eV, float)
     if optical_permittivity is not None:
         f = np.abs(np.asarray(field_MV_cm, float)) * 1e8
-        depth = depth - _poole_frenkel_beta_eV(optical_permittivity) * np.sqrt(f)
+        # a barrier lowered to nothing leaves the attempt frequency: rate <= nu
+        depth = np.maximum(depth - _poole_frenkel_beta_eV(optical_permittivity) * np.sqrt(f), 0.0)
     return attempt_frequency_Hz * np.exp(-depth / (BOLTZMANN_EV_K * np.asarray(temperature_K, float)))
 
 
@@ -342,7 +343,8 @@ class CellSettings:
 class _LogTable:
     """ln J(F) on a coarse grid -> cubic spline -> fine grid, linear interpolation.
 
-    Outside the grid the value is 0: below its first field the injection
+    Fields up to the last non-positive entry of the grid give 0. Outside the
+    grid the value is 0: below its first field the injection
     currents are negligible (< 1e-40 A/cm^2 on the demo cells), beyond its end
     the callers have raised already (`Cell.check_fields`)."""
 
@@ -351,12 +353,20 @@ class _LogTable:
 
         f = np.asarray(field, float)
         v = np.asarray(value, float)
-        lnv = np.where(v > 0, np.log(np.maximum(v, 1e-300)), _LN_FLOOR)
-        lnv = np.maximum(lnv, _LN_FLOOR)
+        lnv = np.maximum(np.log(np.maximum(v, 1e-300)), _LN_FLOOR)
         fine = np.linspace(f[0], f[-1], (f.size - 1) * refine + 1)
-        spline = CubicSpline(f, lnv)
+        ln = np.full(fine.size, _LN_FLOOR)
+        # the spline runs over the positive tail only: a zero or negative entry (net
+        # back-flow at a low field) is a jump of hundreds in ln J that a cubic spline
+        # would carry as ringing into the fields beyond it
+        bad = np.flatnonzero(~(v > 1e-300))
+        first = 0 if bad.size == 0 else bad[-1] + 1
+        if f.size - first >= 2:
+            spline = CubicSpline(f[first:], lnv[first:])
+            tail = fine >= f[first]
+            ln[tail] = spline(fine[tail])
         self.field = fine
-        self.ln = np.maximum(spline(fine), _LN_FLOOR)
+        self.ln = np.maximum(ln, _LN_FLOOR)
         self.coarse_field = f
         self.coarse_value = v
 
@@ -573,11 +583,18 @@ def _neutral_threshold_V(data0):
         return stack_state(data0, gate_V=v).surface_potential_V - target
 
     lo, hi = -5.0, 5.0
-    while f(lo) > 0:
-        lo -= 5.0
-    while f(hi) < 0:
-        hi += 5.0
-    return float(brentq(f, lo, hi, xtol=1e-9))
+    f_lo, f_hi = f(lo), f(hi)
+    for _ in range(40):  # out to +-205 V, far beyond any threshold
+        if f_lo <= 0.0 <= f_hi:
+            return float(brentq(f, lo, hi, xtol=1e-9))
+        if f_lo > 0.0:
+            lo -= 5.0
+            f_lo = f(lo)
+        else:
+            hi += 5.0
+            f_hi = f(hi)
+    raise ConvergenceError(f"cell: no gate voltage in {lo:g} .. {hi:g} V bends the channel by {target:.3f} V "
+                           "(neutral threshold)", ConvergenceRecord(False, 40, (), "threshold bracket", "V"))
 
 
 def prepare_cell(case, settings: CellSettings | None = None) -> Cell:
@@ -641,7 +658,7 @@ def prepare_cell(case, settings: CellSettings | None = None) -> Cell:
         return current_sweep([b.barrier for b in bars], [b.fermi_left_eV for b in bars],
                              [b.fermi_right_eV for b in bars], data0.temperature_K, rtol=s.current_rtol)
 
-    n0 = pos_grid.size + 1  # index of F = 0
+    n0 = pos_grid.size + 1  # index of the first positive field (grid[pos_grid.size] = 0)
     tables = {"channel_electrons": _LogTable(pos_grid, sweep(ch_states[n0:], "electron", "channel"))}
     tables["channel_holes"] = _LogTable(pos_grid, sweep(ch_states[:n0 - 1][::-1], "hole", "channel")
                                         if s.holes else np.zeros(pos_grid.size))
@@ -909,7 +926,7 @@ def ispp(cell: Cell, start_V: float, step_V: float, pulse_s: float, count: int, 
         raise _bad(f"ispp.start_V: {start_V!r}; allowed a positive gate voltage")
     if not (isinstance(pulse_s, numbers.Real) and math.isfinite(pulse_s) and pulse_s > 0):
         raise _bad(f"ispp.pulse_s: {pulse_s!r}; allowed a duration > 0 s")
-    fit = fit_steps or max(3, count // 2)
+    fit = fit_steps or min(int(count), max(3, count // 2))
     if not 2 <= fit <= count:
         raise _bad(f"ispp.fit_steps: {fit!r}; allowed 2 .. count ({count})")
     q = _start(cell, start_charge_cm2)

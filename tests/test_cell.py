@@ -206,6 +206,57 @@ def test_ispp_slope_tends_to_one(cell):
     assert r2.slope_V_per_V == pytest.approx(1.0, abs=5e-3)
 
 
+def test_ispp_two_pulses_fit_both(cell):
+    # the shortest staircase: the default fit takes every pulse (a straight line through two points)
+    r = C.ispp(cell, 16.0, 0.5, 1e-5, 2)
+    assert r.fit_steps == 2
+    assert r.slope_V_per_V == pytest.approx((r.threshold_V[1] - r.threshold_V[0]) / 0.5, rel=1e-9)
+
+
+def test_log_table_is_exact_for_an_exponential_and_ignores_back_flow():
+    # ln J linear in F (an exponential, e.g. the FN exponent's leading behaviour) is
+    # reproduced exactly by the cubic spline of ln J (a spline interpolates a straight line
+    # exactly); a non-positive entry below it gives 0 and no ringing beyond it
+    field = np.arange(0.25, 10.01, 0.25)
+    value = np.exp(-120.0 + 9.0 * field)
+    value[:3] = [0.0, -3e-52, 0.0]
+    table = C._LogTable(field, value)
+    probe = np.linspace(field[3], field[-1], 97)
+    assert_allclose(table(probe), np.exp(-120.0 + 9.0 * probe), rtol=1e-9)
+    assert np.all(table(np.linspace(0.25, field[2], 9)) == 0.0)
+
+
+def test_trap_to_channel_rate_is_the_trapezoid_wkb_closed_form(case, cell):
+    # Trap-to-band tunneling at an erase field: rate = nu exp(-2 int kappa dx) (1 - f), WKB
+    # over the rest of the nitride (E_T at the sheet, falling by q F_n per length, F_n =
+    # eps_ox F_t / eps_n: D continuous, Jackson Sec. 4.4) and the oxide (raised by the
+    # affinity difference, falling by q F_t until the classical turning point). Each linear
+    # piece phi_a -> phi_b over d has int kappa dx = c d (2/3)(phi_a^1.5 - phi_b^1.5)/(phi_a - phi_b),
+    # c = sqrt(2 m m0 q)/hbar (physics-data Sec. 6 items 3 and 6); 1 - f = 1 here (the level
+    # lies > 1 eV above the accumulated channel's Fermi level)
+    from scipy.constants import hbar, m_e
+
+    ft = -8.0  # MV/cm, a grid point of the table
+    trap, ox = case.layers[1].material, case.layers[2].material
+    fn = ox.relative_permittivity * ft / trap.relative_permittivity
+    d_n = 0.5 * case.layers[1].thickness_nm
+    d_ox = case.layers[2].thickness_nm
+
+    def c(m):
+        return math.sqrt(2 * m * m_e * Q) / hbar * 1e-9  # nm^-1 eV^-1/2
+
+    phi_a = trap.trap_depth_eV
+    phi_b = phi_a - abs(fn) * 0.1 * d_n  # MV/cm = 0.1 V/nm
+    assert phi_b > 0
+    k_n = c(trap.electron_mass) * d_n * (2 / 3) * (phi_a**1.5 - phi_b**1.5) / (phi_a - phi_b)
+    phi_0 = phi_b + trap.electron_affinity_eV - ox.electron_affinity_eV
+    assert abs(ft) * 0.1 * d_ox > phi_0  # the turning point lies inside the oxide
+    k_ox = c(ox.electron_mass) * (2 / 3) * phi_0**1.5 / (abs(ft) * 0.1)
+    expected = trap.attempt_frequency_Hz * math.exp(-2 * (k_n + k_ox))
+    got = float(cell._trap_rates("channel", ft, [0])[0])
+    assert got == pytest.approx(expected, rel=1e-6)
+
+
 def test_cross_section_capture(case):
     # capture on a straight crossing of the empty traps: eta = 1 - exp(-sigma_c N_T t) at the
     # start (common practice; sigma_c 1e-14 cm^2, N_T 5e19 cm^-3: physics-data Sec. 3.4), the
@@ -262,6 +313,11 @@ def test_poole_frenkel_coefficient():
     assert beta == pytest.approx(4.38e-4, rel=2e-3)
     # eV per sqrt(V/m) from scipy.constants, times sqrt(100 cm/m)
     assert beta == pytest.approx(math.sqrt(Q / (math.pi * EPS0 * 3.0)) * 10.0, rel=1e-12)
+
+
+def test_poole_frenkel_lowering_stops_at_the_attempt_frequency():
+    # a barrier lowered below zero leaves the escape at nu (no faster than every attempt)
+    assert C.thermal_emission_rate_Hz(0.3, 300.0, 1e13, field_MV_cm=30.0, optical_permittivity=2.0) == 1e13
 
 
 def test_poole_frenkel_speeds_up_retention_loss(case, cell, programmed):
