@@ -239,11 +239,13 @@ def run(args) -> int:
     info(args, f"ISPP {args.ispp_start_V:g}..{steps.gate_V[-1]:g} V in {args.ispp_step_V:g} V steps of "
                f"{args.ispp_pulse_s:g} s: V_T {steps.start_threshold_V:.3f} -> {steps.threshold_V[-1]:.3f} V, "
                f"slope {steps.slope_V_per_V:.3f} V/V over the last {steps.fit_steps} steps")
+    ispp_field = float(np.max(np.abs(steps.max_tunnel_field_MV_cm)))
     info(args, f"largest fields: tunnel {s.max_tunnel_field_MV_cm:.1f} MV/cm, blocking "
-               f"{s.max_blocking_field_MV_cm:.1f} MV/cm (ISPP tunnel {np.max(np.abs(steps.max_tunnel_field_MV_cm)):.1f})")
-    if max(s.max_tunnel_field_MV_cm, s.max_blocking_field_MV_cm) > BREAKDOWN_FIELD_MV_CM:
+               f"{s.max_blocking_field_MV_cm:.1f} MV/cm (ISPP tunnel {ispp_field:.1f})")
+    if max(s.max_tunnel_field_MV_cm, s.max_blocking_field_MV_cm, ispp_field) > BREAKDOWN_FIELD_MV_CM:
         info(args, f"note: the fields exceed {BREAKDOWN_FIELD_MV_CM:g} MV/cm, beyond dielectric breakdown of "
-                   "thin oxides (common practice); lower --program-V / --erase-V for this cell")
+                   "thin oxides (common practice); lower --program-V / --erase-V / the ISPP staircase "
+                   "for this cell")
     if settings.capture == "complete" and s.trap_fill_fraction is not None and s.trap_fill_fraction > 0.3:
         info(args, f"note: the programmed charge is {100 * s.trap_fill_fraction:.0f} % of the trap sheet "
                    "capacity N_T t; complete capture ignores trap filling, so the programmed V_T is an upper "

@@ -63,3 +63,18 @@ def test_bad_input_is_one_line_exit_2(tmp_path, capsys, argv, start):
     code = main(["cell", *argv, "--output", str(tmp_path / "x.h5"), *SMALL])
     err = capsys.readouterr().err
     assert code == 2 and err.startswith(start) and err.count("\n") == 1
+
+
+def test_cell_figures_always_carry_the_caution(tmp_path):
+    # the figure functions default to the caution text and refuse to draw without one
+    from solver.plots.cell import ispp_figure, retention_figure, transient_figure
+
+    curve = {"time_s": np.geomspace(1e-9, 1e-4, 5), "threshold_V": np.linspace(1.0, 3.0, 5), "gate_V": 18.0}
+    assert transient_figure(tmp_path / "t.png", program=curve) == str(tmp_path / "t.png")
+    for call in (lambda: transient_figure(tmp_path / "x.png", program=curve, caution=""),
+                 lambda: ispp_figure(tmp_path / "x.png", gate_V=[14.0, 14.5], threshold_V=[1.0, 1.5],
+                                     slope_V_per_V=1.0, fit_steps=2, pulse_s=1e-5, caution=" "),
+                 lambda: retention_figure(tmp_path / "x.png", curves=[], temperature_K=328.15, caution=None)):
+        with pytest.raises(ValueError, match="caution"):
+            call()
+    assert not (tmp_path / "x.png").exists()

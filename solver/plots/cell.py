@@ -5,7 +5,8 @@
     retention_figure   V_T against storage time (log axis) out to the retention target
 
 Each takes plain arrays, so stored results draw as easily as fresh ones, and
-each carries the caution line of the cell stage at its foot.
+each carries the caution line (solver.caution) at its foot: the default
+``caution`` is that text, and an empty one is refused.
 """
 from __future__ import annotations
 
@@ -13,6 +14,7 @@ import math
 
 import numpy as np
 
+from solver.caution import CAUTION
 from solver.plots import new_figure, save
 
 __all__ = ["transient_figure", "ispp_figure", "retention_figure"]
@@ -23,12 +25,16 @@ _GUIDE = "#777777"
 _YEAR_S = 365.25 * 86400.0
 
 
+def _check_caution(caution):
+    if not (isinstance(caution, str) and caution.strip()):
+        raise ValueError("caution: a figure of the cell stage carries the caution text (solver.caution.CAUTION)")
+
+
 def _caution(fig, caution):
     """The caution line at the foot (a figure-level label, so the layout makes room for it)."""
-    if caution:
-        import textwrap
+    import textwrap
 
-        fig.supxlabel("\n".join(textwrap.wrap(caution, 125)), fontsize=6.5, color="#555555")
+    fig.supxlabel("\n".join(textwrap.wrap(caution, 125)), fontsize=6.5, color="#555555")
 
 
 def _state_lines(ax, neutral_threshold_V):
@@ -38,9 +44,10 @@ def _state_lines(ax, neutral_threshold_V):
                 ha="left", va="bottom", fontsize=7.5, color="#444444")
 
 
-def transient_figure(path, *, program=None, erase=None, neutral_threshold_V=None, title="", caution="") -> str:
+def transient_figure(path, *, program=None, erase=None, neutral_threshold_V=None, title="", caution=CAUTION) -> str:
     """V_T(t) on a log time axis. ``program`` / ``erase``: dicts with
     ``time_s``, ``threshold_V``, ``gate_V`` and optionally ``start_threshold_V``."""
+    _check_caution(caution)
     fig, ax = new_figure(figsize=(7.2, 4.9))
     for curve, color, name in ((program, _PROGRAM, "program"), (erase, _ERASE, "erase")):
         if curve is None:
@@ -65,10 +72,11 @@ def transient_figure(path, *, program=None, erase=None, neutral_threshold_V=None
 
 
 def ispp_figure(path, *, gate_V, threshold_V, slope_V_per_V, fit_steps, pulse_s, start_threshold_V=None,
-                title="", caution="") -> str:
+                title="", caution=CAUTION) -> str:
     """V_T after each step against the step voltage, with a slope-1 line through the last point."""
     v = np.asarray(gate_V, float)
     vt = np.asarray(threshold_V, float)
+    _check_caution(caution)
     fig, ax = new_figure(figsize=(7.2, 4.9))
     ax.plot(v, vt, color=_PROGRAM, marker="o", ms=4, lw=1.5, label=f"V_T after each {pulse_s * 1e6:.3g} µs pulse")
     guide = vt[-1] + (v - v[-1])
@@ -93,9 +101,10 @@ def ispp_figure(path, *, gate_V, threshold_V, slope_V_per_V, fit_steps, pulse_s,
 
 
 def retention_figure(path, *, curves, temperature_K, target_s=10 * _YEAR_S, neutral_threshold_V=None,
-                     title="", caution="") -> str:
+                     title="", caution=CAUTION) -> str:
     """V_T against storage time (log axis). ``curves``: list of dicts with
     ``label``, ``time_s``, ``threshold_V`` and ``start_threshold_V``."""
+    _check_caution(caution)
     fig, ax = new_figure(figsize=(7.2, 4.9))
     colors = (_PROGRAM, _ERASE, "#2f8a3b", "#8a3b8f")
     for i, c in enumerate(curves):
