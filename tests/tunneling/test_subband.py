@@ -113,6 +113,18 @@ def _oxide_barrier(edge=0.0, mass=0.916):
     return Barrier((3.0,), (3.1,), (1.0,), (0.5,), left=(edge, mass), right=(-5.0, 1.0))
 
 
+def test_current_is_q_n_f_t_with_the_rectangular_closed_form():
+    # physics-data Sec. 7 (closed form of Sec. 6 item 1, BenDaniel-Duke matching):
+    # E 1.0 eV, U 3.1 eV, d 2 nm, m_b 0.5, leads (0, 1.0): T = 1.88680e-9; the current of
+    # the impact-frequency picture is J = q N f T (scipy.constants.e)
+    b = Barrier((2.0,), (3.1,), (3.1,), (0.5,), left=(0.0, 1.0), right=(0.0, 1.0))
+    N, f = 2e12, 3e13  # cm^-2, Hz
+    j = subband_current_density(b, np.array([1.0]), np.array([N]), np.array([f]))
+    assert_allclose(j, Q * N * f * 1.88680e-9, rtol=1e-5)
+    jw = subband_current_density(b, np.array([1.0]), np.array([N]), np.array([f]), model="wkb")
+    assert_allclose(jw, Q * N * f * 7.592e-10, rtol=1e-3)  # the WKB value of the same row
+
+
 def test_current_linear_in_population_and_frequency():
     b = _oxide_barrier()
     E = np.array([0.1, 0.25])
