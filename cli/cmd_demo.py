@@ -19,8 +19,11 @@ HELP = ("run the main job on a case: check, band diagram, C–V, exact vs WKB/FN
         "program/erase/retention (HDF5 + PNG)")
 
 
+DEFAULT_CASE = "cases/demo-cell.toml"
+
+
 def add_arguments(parser):
-    parser.add_argument("case", metavar="CASE", nargs="?", default="cases/demo-cell.toml",
+    parser.add_argument("case", metavar="CASE", nargs="?", default=DEFAULT_CASE,
                         help="case file (TOML); default cases/demo-cell.toml")
     parser.add_argument("--output-dir", metavar="DIR", default="tunnelstack-demo",
                         help="directory for the HDF5 files and figures (default tunnelstack-demo)")
@@ -31,9 +34,19 @@ def run(args) -> int:
     from cli.main import build_parser
     from solver.case import load_case
 
+    from cli.common import bad_input
+
+    if args.case == DEFAULT_CASE and not Path(DEFAULT_CASE).is_file():
+        raise bad_input(f"CASE: the default case {DEFAULT_CASE} is not in {Path.cwd()}; run from the root of "
+                        "the tunnelstack source tree or name a case file")
     load_case(args.case)  # bad input stops here, before anything is written
     out = Path(args.output_dir)
-    out.mkdir(parents=True, exist_ok=True)
+    if out.exists() and not out.is_dir():
+        raise bad_input(f"--output-dir: {out} exists and is not a directory")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as err:
+        raise bad_input(f"--output-dir: cannot create {out} ({err.strerror or err})") from None
     quiet = ["--quiet"] if args.quiet else []
     steps = [
         ("stack", ["check", args.case]),

@@ -43,13 +43,21 @@ def output_paths(args, case, kind: str, figures: dict):
     FILE-<name>.png) or `--output-dir DIR` (default ./<case name>-<kind>/, holding <kind>.h5)."""
     from pathlib import Path
 
+    def make(directory: Path, option: str) -> None:
+        try:
+            directory.mkdir(parents=True, exist_ok=True)
+        except OSError as err:
+            raise bad_input(f"{option}: cannot create the directory {directory} ({err.strerror or err})") from None
+
     if args.output:
         h5 = Path(args.output)
-        h5.parent.mkdir(parents=True, exist_ok=True)
+        if h5.is_dir():
+            raise bad_input(f"--output: {h5} is a directory; give a file name (FILE.h5) or use --output-dir")
+        make(h5.parent, "--output")
         stem = h5.with_suffix("")
         return h5, {k: Path(f"{stem}-{v}") for k, v in figures.items()}
     directory = Path(args.output_dir) if args.output_dir else Path(f"{Path(case.source).stem}-{kind}")
     if directory.exists() and not directory.is_dir():
         raise bad_input(f"--output-dir: {directory} exists and is not a directory")
-    directory.mkdir(parents=True, exist_ok=True)
+    make(directory, "--output-dir")
     return directory / f"{kind}.h5", {k: directory / v for k, v in figures.items()}

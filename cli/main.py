@@ -50,8 +50,28 @@ def _load_commands():
     return commands
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse with its usage errors on one line (exit code 2), like every other bad input."""
+
+    def error(self, message):
+        self.exit(EXIT_BAD_INPUT, f"error: {self.prog}: {message} (`{self.prog} --help` lists the options)\n")
+
+
+def _os_error_line(err: OSError) -> str:
+    """One line for a file that could not be read or written: the path and the reason."""
+    from pathlib import Path
+
+    reason = err.strerror or str(err)
+    if not err.filename:
+        return str(err)
+    path = Path(str(err.filename))
+    if path.name.startswith(".") and path.name.endswith(".tmp"):  # the atomic writer's temporary file
+        return f"cannot write into the directory {path.parent} ({reason})"
+    return f"{path}: {reason}"
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="tunnelstack",
         description=(
             "Gate-stack electrostatics, channel quantization and exact multilayer "
@@ -96,7 +116,7 @@ def main(argv=None) -> int:
         print("interrupted", file=sys.stderr)
         return 130
     except OSError as err:
-        print(f"error: {err}", file=sys.stderr)
+        print(f"error: {_os_error_line(err)}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except ValueError as err:  # a library function refusing an argument the command passed on
         if os.environ.get("TUNNELSTACK_TRACEBACK"):

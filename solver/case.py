@@ -406,6 +406,9 @@ def parse_dict(raw: dict, *, text: str = "", source: str = "<dict>", _base_dir: 
         mp = Path(mf)
         if not mp.is_absolute():
             mp = (_base_dir or Path.cwd()) / mp
+        if not mp.is_file():
+            raise CaseError(f"materials_file: {mf!r} " + ("is a directory" if mp.is_dir() else "not found")
+                            + f" (looked for {mp}; a relative path is taken from the case file's directory)")
         files = (mp,)
     overrides = raw.get("materials")
     if overrides is not None and not isinstance(overrides, dict):
@@ -618,7 +621,8 @@ def _parse_study(t, case: Case) -> Study:
                 raise CaseError(f"{where}.count: expected a whole number >= 1, got {_fmt(count)}")
             spacing = _string(at, "spacing", where, default="linear", choices=("linear", "log"))
             if count > 1 and start == stop:
-                raise CaseError(f"{where}: empty range (start = stop = {start:g}) with count {count}")
+                raise CaseError(f"{where}: empty range (start = stop = {start:g}) with count {count}; "
+                                "allowed: stop different from start, or count = 1 for a single value")
             if spacing == "log":
                 if not (start > 0 and stop > 0):
                     raise CaseError(f"{where}: a log range needs start and stop > 0, got {start:g}, {stop:g}")

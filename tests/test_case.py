@@ -49,6 +49,13 @@ BAD = [
     ("bad orientation", GOOD.replace('orientation = "100"', 'orientation = "101"'),
      r"channel\.orientation: '101' is not allowed\."),
     ("unknown section", GOOD + "\n[meshh]\n", r"meshh: unknown key\. Did you mean 'mesh'\?"),
+    ("override of an unknown material", GOOD + "\n[materials.SiO3]\nelectron_mass = 0.4\n",
+     r"materials\.SiO3: unknown material 'SiO3'\. Did you mean 'SiO2'\? .*a new one needs `kind` or `mix`"),
+    ("missing materials file", 'materials_file = "no-such-file.toml"\n' + GOOD,
+     r"materials_file: 'no-such-file\.toml' not found \(looked for .*no-such-file\.toml"),
+    ("core larger than the channel",
+     (CASES / "demo-cell-cylindrical.toml").read_text().replace("core_radius_nm = 10.0", "core_radius_nm = 25.0"),
+     r"geometry\.core_radius_nm: must be < channel_radius_nm \(20\), got 25"),
 ]
 
 

@@ -68,3 +68,35 @@ def test_check_refuses_unknown_study_computation(tmp_path, capsys):
     assert main(["check", str(bad)]) == 2
     captured = capsys.readouterr()
     assert "Did you mean 'current'" in captured.err and captured.out == ""
+
+
+def test_usage_error_is_one_line_exit_2(capsys):
+    # argparse's own errors follow the same rule as every bad input: exit 2, one line naming the option
+    with pytest.raises(SystemExit) as info:
+        main(["check"])
+    assert info.value.code == 2
+    err = capsys.readouterr().err
+    assert err.strip().count("\n") == 0 and "CASE" in err and "--help" in err
+    with pytest.raises(SystemExit) as info:
+        main(["validate", "--group", "nonsense"])
+    assert info.value.code == 2
+    err = capsys.readouterr().err
+    assert err.strip().count("\n") == 0 and "--group" in err and "'nonsense'" in err
+
+
+def test_demo_output_dir_that_cannot_be_made(tmp_path, capsys):
+    blocker = tmp_path / "a-file"
+    blocker.write_text("not a directory")
+    assert main(["demo", str(CASES / "mos-capacitor.toml"), "--output-dir", str(blocker), "--quiet"]) == 2
+    assert "--output-dir" in capsys.readouterr().err
+    assert main(["demo", str(CASES / "mos-capacitor.toml"), "--output-dir", str(blocker / "sub"), "--quiet"]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error: --output-dir: cannot create") and err.strip().count("\n") == 0
+
+
+def test_write_failure_names_the_directory():
+    from cli.main import _os_error_line
+
+    line = _os_error_line(FileNotFoundError(2, "No such file or directory", "/no/where/.run.h5.ab12cd.tmp"))
+    assert line == "cannot write into the directory /no/where (No such file or directory)"
+    assert _os_error_line(PermissionError(13, "Permission denied", "/x/y.csv")) == "/x/y.csv: Permission denied"

@@ -97,3 +97,13 @@ def test_user_file_value_without_source_is_refused(tmp_path):
     f.write_text('[MyOx]\nkind = "dielectric"\nrelative_permittivity = 5.0\n')
     with pytest.raises(CaseError, match=r"materials\.MyOx\.relative_permittivity: a library value needs a source"):
         load_materials([f])
+
+
+def test_override_of_an_unknown_material_names_it():
+    with pytest.raises(CaseError, match=r"^materials\.SiO3: unknown material 'SiO3'\. Did you mean 'SiO2'\?"):
+        load_materials(overrides={"SiO3": {"electron_mass": 0.4}})
+
+
+def test_missing_user_file_one_line(tmp_path):
+    with pytest.raises(CaseError, match=r"^materials file '.*nope\.toml': no such file$"):
+        load_materials([tmp_path / "nope.toml"])

@@ -258,7 +258,9 @@ def _read_toml(path: Path, what: str) -> dict:
     try:
         return tomllib.loads(Path(path).read_text(encoding="utf-8"))
     except FileNotFoundError:
-        raise CaseError(f"{what}: file {str(path)!r} not found") from None
+        raise CaseError(f"{what}: no such file") from None
+    except IsADirectoryError:
+        raise CaseError(f"{what}: is a directory, not a TOML file") from None
     except tomllib.TOMLDecodeError as err:
         raise CaseError(f"{what}: {path} is not valid TOML ({err})") from None
     except (OSError, UnicodeDecodeError) as err:
@@ -435,13 +437,14 @@ def load_materials(files=(), overrides: Mapping | None = None, *, overrides_key:
     references = dict(references)
     raw_all = copy.deepcopy(base)
     for f in files:
-        extra = _read_toml(Path(f), f"materials file {f}")
+        extra = _read_toml(Path(f), f"materials file {str(f)!r}")
         refs = extra.pop("references", {})
         if not isinstance(refs, dict):
             raise CaseError(f"materials file {f}: [references] must be a table")
         references.update({k: (v.get("text", "") if isinstance(v, dict) else str(v)) for k, v in refs.items()})
         raw_all = _merge_raw(raw_all, extra, f"materials file {f}")
     user_names = set()
+    known_names = list(raw_all)  # the library and the materials files, before the case's overrides
     if overrides:
         raw_all = _merge_raw(raw_all, overrides, overrides_key)
         user_names = set(overrides)
@@ -457,6 +460,9 @@ def load_materials(files=(), overrides: Mapping | None = None, *, overrides_key:
             raw = _mix(name, raw, resolved_raw, key_path, references)
         resolved_raw[name] = raw
         kind = raw.get("kind")
+        if kind is None and name in user_names and name not in known_names and "mix" not in raw:
+            raise CaseError(f"{key_path}: unknown material {name!r}.{_hint(name, known_names)} An override needs "
+                            f"the name of a known material ({', '.join(known_names)}); a new one needs `kind` or `mix`")
         if kind not in KINDS:
             raise CaseError(f"{key_path}.kind: {kind!r} not allowed; allowed: {', '.join(KINDS)}"
                             + ("" if kind else " (a new material needs `kind`, or `mix`)"))
