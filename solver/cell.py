@@ -334,6 +334,9 @@ class CellSettings:
         for name, v, lo, hi in checks:
             if not (isinstance(v, numbers.Real) and math.isfinite(v) and lo <= v <= hi):
                 raise _bad(f"cell.{name}: {v!r} is out of range; allowed {lo:g} .. {hi:g}")
+        if self.field_limit_MV_cm < 4.0 * self.field_step_MV_cm:
+            raise _bad(f"cell.field_step_MV_cm: {self.field_step_MV_cm!r} leaves fewer than 4 table fields up to "
+                       f"field_limit_MV_cm = {self.field_limit_MV_cm!r}; allowed step <= limit / 4")
         if self.capture not in CAPTURE_MODELS:
             raise _bad(f"cell.capture: {self.capture!r}; allowed {', '.join(map(repr, CAPTURE_MODELS))}")
         if not (isinstance(self.spread_points, numbers.Integral) and 1 <= self.spread_points <= 64):

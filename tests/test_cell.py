@@ -475,3 +475,6 @@ def test_bad_settings():
     with pytest.raises(CaseError) as e:
         C.CellSettings(capture="partial")
     assert _one_line(e).startswith("cell.capture")
+    with pytest.raises(CaseError) as e:  # a table too short for its spline
+        C.CellSettings(field_limit_MV_cm=2.0, field_step_MV_cm=2.0)
+    assert _one_line(e).startswith("cell.field_step_MV_cm")
