@@ -253,6 +253,8 @@ def current_group(result):
                                              "(cross-check)"),
         "transmission": (arr(result.transmission), "1", "exact transmission at the subband energy"),
         "transmission_wkb": (arr(result.transmission_wkb), "1", "WKB transmission at the subband energy"),
+        "net_factor": (arr(result.net_factor), "1",
+                       "share of the population not balanced by the gate's back-flow (detailed balance)"),
         "current_A_cm2": (arr(result.current_A_cm2), "A/cm^2", "emission current of the subband, exact T"),
         "current_wkb_A_cm2": (arr(result.current_wkb_A_cm2), "A/cm^2", "emission current of the subband, WKB T"),
     }

@@ -156,6 +156,7 @@ def test_bands_current_prints_and_stores_the_emission(tmp_path, capsys):
     assert_allclose(total, j.values.sum(), rtol=1e-12)
     # J_i = q N_i f_i T_i (scipy.constants.e), with no back-flow far from equilibrium
     q = 1.602176634e-19
+    assert np.all(cur["net_factor"].values == 1.0)
     assert_allclose(j.values, q * n.values * cur["impact_frequency_Hz"].values * cur["transmission"].values,
                     rtol=1e-12)
     assert 0.1 < total / float(cur["tsu_esaki_A_cm2"].values) < 10.0
