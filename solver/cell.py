@@ -90,7 +90,7 @@ Charge balance (all fluxes as current densities, magnitudes in A/cm^2)
    single depth E_T.
 12. Recombination switch: an injected hole recombines with a trapped electron
    with weight n/(n + n_s) and is trapped with weight n_s/(n + n_s), n_s =
-   1e9 q/cm^2 (about 1 mV of V_T) keeping the balance smooth for the implicit
+   1e9 q/cm^2 (about 0.3 mV of V_T) keeping the balance smooth for the implicit
    integrator; electrons injected into a trap layer holding holes recombine
    the same way.
 13. Temperature: the tables (tunneling currents, trap-to-band rates with
@@ -107,7 +107,8 @@ and interpolated in log space (cubic spline of ln J resampled on a fine grid,
 then linear interpolation) inside the time integration, which runs
 `scipy.integrate.solve_ivp` (Radau, implicit, for the stiff self-limiting
 balance) over ln t with rtol 1e-6. A transient starts at t = 1e-15 s: the
-charge any current below 1e4 A/cm^2 moves before that is < 1e8 q/cm^2 (0.1 mV).
+charge any current below 1e4 A/cm^2 moves before that is < 1e8 q/cm^2 (< 0.03 mV on
+the demo cells).
 An operation whose fields leave the table raises CaseError naming the
 voltage (the table limit is far above dielectric breakdown, ~15-20 MV/cm).
 The exact current oscillates slightly with the field above the
@@ -767,6 +768,8 @@ def _integrate(cell: Cell, operation, gate_V, duration_s, start_charge_cm2, temp
     times_s = np.asarray(times_s, float)
     if np.any(times_s <= 0) or np.any(np.diff(times_s) <= 0) or times_s[-1] > duration_s * (1 + 1e-12):
         raise _bad(f"{operation}.times_s: must increase, > 0 and <= the duration")
+    if times_s[-1] < duration_s * (1 - 1e-12):  # the transient always ends at the end of the pulse
+        times_s = np.append(times_s, duration_s)
     if spread:
         offsets_w = _gauss_hermite(cell.settings.trap_spread_eV, cell.settings.spread_points)[1]
         idx = np.arange(1, cell.depth_offsets_eV.size)
@@ -866,7 +869,7 @@ def program(cell: Cell, gate_V: float, pulse_s: float = 1e-2, *, start_charge_cm
             temperature_K=None) -> CellTransient:
     """V_T(t) during a gate pulse of ``gate_V`` (V) lasting ``pulse_s``, from the
     case's stored charge (or ``start_charge_cm2``). Output times from 1e-9 s (or
-    ``times_s``)."""
+    ``times_s``, to which the end of the pulse is added when it stops short)."""
     if not (isinstance(gate_V, numbers.Real) and gate_V > 0):
         raise _bad(f"program.gate_V: {gate_V!r}; a program pulse needs a positive gate voltage")
     return _integrate(cell, "program", float(gate_V), pulse_s, _start(cell, start_charge_cm2),

@@ -140,6 +140,14 @@ def test_program_never_overshoots(cell, gate_V, log_pulse):
     assert tr.tunnel_field_MV_cm[-1] > 5.0
 
 
+def test_output_times_short_of_the_pulse_end_still_end_there(cell):
+    # the final state is that at the end of the pulse whatever output times were asked for
+    full = C.program(cell, 17.0, 1e-4)
+    short = C.program(cell, 17.0, 1e-4, times_s=[1e-8, 1e-6])
+    assert short.time_s.tolist() == [1e-8, 1e-6, 1e-4]
+    assert short.final_threshold_V == pytest.approx(full.final_threshold_V, abs=1e-5)
+
+
 def test_pulses_shorter_than_the_first_output_time(cell):
     tr = C.program(cell, 18.0, 1e-12)
     assert tr.time_s.tolist() == [1e-12]

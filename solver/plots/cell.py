@@ -15,6 +15,7 @@ import math
 import numpy as np
 
 from solver.caution import CAUTION
+from solver.cell import SECONDS_PER_YEAR as _YEAR_S
 from solver.plots import new_figure, save
 
 __all__ = ["transient_figure", "ispp_figure", "retention_figure"]
@@ -22,7 +23,6 @@ __all__ = ["transient_figure", "ispp_figure", "retention_figure"]
 _PROGRAM = "#b2361f"
 _ERASE = "#1f5fa8"
 _GUIDE = "#777777"
-_YEAR_S = 365.25 * 86400.0
 
 
 def _check_caution(caution):
