@@ -231,7 +231,8 @@ def net_emission_factor(energy_eV, fermi_emitter_eV, fermi_collector_eV, tempera
         raise ValueError(f"temperature_K must be finite and > 0, got {temperature_K!r}")
     kT = BOLTZMANN_EV_K * temperature_K
     e = np.asarray(energy_eV, float)
-    return -np.expm1(_log_softplus((fermi_collector_eV - e) / kT) - _log_softplus((fermi_emitter_eV - e) / kT))
+    ratio_ln = _log_softplus((fermi_collector_eV - e) / kT) - _log_softplus((fermi_emitter_eV - e) / kT)
+    return -np.expm1(ratio_ln) + 0.0  # + 0.0: a balanced population reports 0, not -0
 
 
 def subband_current_density(barrier, energy_eV, population_cm2, impact_frequency_Hz, *, model="exact",

@@ -147,7 +147,8 @@ def test_current_linear_in_population_and_frequency():
 def test_net_factor_detailed_balance_and_reversal():
     E = np.array([-0.1, 0.05, 0.3])
     # equal Fermi levels: emission and back-flow balance exactly (detailed balance)
-    assert np.all(net_emission_factor(E, 0.0, 0.0, 300.0) == 0.0)
+    balanced = net_emission_factor(E, 0.0, 0.0, 300.0)
+    assert np.all(balanced == 0.0) and not np.any(np.signbit(balanced))
     # collector far below: the whole population emits
     assert_allclose(net_emission_factor(E, 0.0, -5.0, 300.0), 1.0, rtol=1e-12)
     # collector above the emitter: the flow reverses (negative)
