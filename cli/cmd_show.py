@@ -32,7 +32,7 @@ def _range(values) -> str:
     arr = np.asarray(values, dtype=float)
     arr = arr[np.isfinite(arr)]
     if arr.size == 0:
-        return "(none yet)"
+        return "(no finite value)"
     lo, hi = arr.min(), arr.max()
     return _fmt(lo) if lo == hi else f"{_fmt(lo)} .. {_fmt(hi)}"
 
@@ -135,6 +135,10 @@ def _show_run(path: Path) -> None:
 def run(args) -> int:
     from solver.store import file_kind, StoreError
 
+    if args.errors < 0:
+        from solver.errors import CaseError
+
+        raise CaseError(f"--errors: must be >= 0 (0 = all failed points), got {args.errors}")
     path = Path(args.file)
     kind = file_kind(path)
     if kind is None:

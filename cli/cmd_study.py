@@ -76,6 +76,8 @@ def run(args) -> int:
             importlib.import_module(module)
         except ImportError as err:
             raise CaseError(f"--plugin {module}: cannot import it ({err})") from None
+    if args.local_cluster is not None and args.local_cluster < 1:
+        raise CaseError(f"--local-cluster: must be >= 1 worker process, got {args.local_cluster}")
     if args.output is None:
         args.output = str(default_output(args.case))
     case = load_case(args.case)

@@ -868,12 +868,15 @@ def open_study(
         if _existing_kind(target, "study"):
             with open_checked(target, kind="study") as f:
                 old_hash = _str(f.attrs.get("study_hash"))
+                old_compute = _str(f.attrs.get("compute"))
                 done = int(np.count_nonzero(f["study/completed"][...])) if "study/completed" in f else 0
             if old_hash != plan.spec_hash:
                 if not restart:
+                    what = (f"computation {old_compute!r} there, {plan.compute.name!r} asked now; "
+                            if old_compute and old_compute != plan.compute.name else "")
                     raise StoreError(
                         f"{target}: holds a study of a different case or study spec "
-                        f"({done} finished points); use --restart to discard them and start over, "
+                        f"({what}{done} finished points); use --restart to discard them and start over, "
                         "or choose another output file"
                     )
                 create = True
