@@ -833,7 +833,9 @@ def _integrate(cell: Cell, operation, gate_V, duration_s, start_charge_cm2, temp
     ft_all, fb_all = cell.fields_MV_cm(gate_V, charge)
     lim = s.field_limit_MV_cm
     if not (np.all(np.abs(ft_all) <= lim) and np.all(np.abs(fb_all) <= lim)):
-        raise _bad(f"{operation}.gate_V: {gate_V:g} V drives a field beyond the {lim:g} MV/cm table")
+        raise _bad(f"{operation}.gate_V: {gate_V:g} V drives up to {np.max(np.abs(ft_all)):.2f} MV/cm across the "
+                   f"tunnel layer and {np.max(np.abs(fb_all)):.2f} MV/cm across the blocking layer during the pulse, "
+                   f"beyond the {lim:g} MV/cm table (far above dielectric breakdown); lower the voltage")
     currents = {k: np.empty(times_s.size) for k in FLUX_NAMES}
     for i in range(times_s.size):
         n, p, ne, ft, fb, je, jg, jh, e1, e2, e3 = rates(y[:, i])
