@@ -120,6 +120,8 @@ def test_neutral_threshold_is_the_classical_one(case, cell):
 
 
 def test_program_is_monotonic_in_time_and_voltage(cell):
+    # a positive gate pulse injects electrons and raises V_T, the more the higher the
+    # voltage (physics-data Sec. 5.2; common practice)
     finals = []
     for v in (16.0, 17.0, 18.0):
         tr = C.program(cell, v, 1e-4)
@@ -286,6 +288,8 @@ def test_cross_section_capture(case):
 
 
 def test_erase_lowers_threshold(cell, programmed):
+    # a negative gate pulse removes electrons / injects holes and lowers V_T, the more the
+    # larger |V| (physics-data Sec. 5.2; common practice)
     q0 = programmed.final_charge_cm2
     finals = []
     for v in (-16.0, -18.0):
