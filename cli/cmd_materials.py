@@ -12,7 +12,7 @@ HELP = "list the materials library (parameters, literature ranges and sources)"
 def add_arguments(parser):
     parser.add_argument("names", nargs="*", metavar="MATERIAL",
                         help="show every parameter of these materials with its source and range")
-    parser.add_argument("--json", action="store_true", help="print the whole library as JSON")
+    parser.add_argument("--json", action="store_true", help="print as JSON: the named materials, or the whole library")
     parser.add_argument("--materials-file", action="append", default=[], metavar="FILE",
                         help="merge a materials file of your own (TOML, same format as the library)")
 
@@ -25,9 +25,14 @@ def run(args) -> int:
     from solver.materials import load_materials
 
     lib = load_materials(args.materials_file)
+    for name in args.names:
+        if name not in lib:
+            lib.get_kind(name, ("metal", "dielectric", "semiconductor"), "materials")  # CaseError with a hint
     if args.json:
         out = {}
         for name, mat in lib.items():
+            if args.names and name not in args.names:
+                continue
             out[name] = {"kind": mat.kind, "description": getattr(mat, "description", ""),
                          "parameters": {k: {"value": p.value, "source": p.source,
                                             "reference": lib.references.get(p.source, p.source),
@@ -40,8 +45,6 @@ def run(args) -> int:
         return 0
     if args.names:
         for name in args.names:
-            if name not in lib:
-                lib.get_kind(name, ("metal", "dielectric", "semiconductor"), "materials")
             mat = lib[name]
             print(f"{name} ({mat.kind}): {getattr(mat, 'description', '')}")
             rows = []

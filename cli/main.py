@@ -112,6 +112,10 @@ def main(argv=None) -> int:
     except ComputationError as err:
         print(f"computation failed: {err}", file=sys.stderr)
         return EXIT_FAILED
+    except BrokenPipeError:  # the reader stopped early (`| head`): not an error of ours
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return EXIT_OK
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130

@@ -617,6 +617,8 @@ def _parse_study(t, case: Case) -> Study:
             start = _number(at, "start", where, required=True)
             stop = _number(at, "stop", where, required=True)
             count = at.get("count")
+            if count is None:
+                raise CaseError(f"{where}.count: missing; a range needs start, stop and count (a whole number >= 1)")
             if isinstance(count, bool) or not isinstance(count, int) or count < 1:
                 raise CaseError(f"{where}.count: expected a whole number >= 1, got {_fmt(count)}")
             spacing = _string(at, "spacing", where, default="linear", choices=("linear", "log"))

@@ -89,6 +89,9 @@ def test_study_axes_validated_up_front():
     bad_value = base.replace("start = 3.0\nstop = 6.0", "start = -1.0\nstop = 6.0")
     with pytest.raises(CaseError, match=r"study\.axis\[0\].*must be > 0"):
         parse_case(bad_value)
+    no_count = base.replace("stop = 6.0\ncount = 7", "stop = 6.0")
+    with pytest.raises(CaseError, match=r"^study\.axis\[0\]\.count: missing; a range needs start, stop and count"):
+        parse_case(no_count)
     empty = base.replace("start = 3.0\nstop = 6.0", "start = 3.0\nstop = 3.0")
     with pytest.raises(CaseError, match=r"empty range"):
         parse_case(empty)

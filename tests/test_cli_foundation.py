@@ -100,3 +100,10 @@ def test_write_failure_names_the_directory():
     line = _os_error_line(FileNotFoundError(2, "No such file or directory", "/no/where/.run.h5.ab12cd.tmp"))
     assert line == "cannot write into the directory /no/where (No such file or directory)"
     assert _os_error_line(PermissionError(13, "Permission denied", "/x/y.csv")) == "/x/y.csv: Permission denied"
+
+
+def test_materials_json_of_named_materials(capsys):
+    assert main(["materials", "SiO2", "TaN", "--json"]) == 0
+    assert sorted(json.loads(capsys.readouterr().out)) == ["SiO2", "TaN"]
+    assert main(["materials", "SiO3", "--json"]) == 2
+    assert "Did you mean 'SiO2'" in capsys.readouterr().err
