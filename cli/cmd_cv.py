@@ -94,8 +94,12 @@ def run(args) -> int:
     from solver import load_case
     from solver.cv import capacitance_voltage
 
+    from cli.common import check_output_file
+
     case = load_case(args.case)
     gate_V = _sweep(case, args)
+    check_output_file(args.output, "--output")
+    check_output_file(args.figure, "--figure")
     statistics = "boltzmann" if args.boltzmann else "fermi-dirac"
     classical = capacitance_voltage(case, gate_V, quantum=False, statistics=statistics)
     quantum = capacitance_voltage(case, gate_V, quantum=True, statistics=statistics)

@@ -61,3 +61,21 @@ def output_paths(args, case, kind: str, figures: dict):
         raise bad_input(f"--output-dir: {directory} exists and is not a directory")
     make(directory, "--output-dir")
     return directory / f"{kind}.h5", {k: directory / v for k, v in figures.items()}
+
+
+def check_output_file(path, option: str):
+    """Refuse, before any computation, an output file that cannot be written: a directory,
+    or a file in a directory that does not exist or is not writable (CaseError, exit 2)."""
+    import os
+    from pathlib import Path
+
+    if path is None:
+        return
+    target = Path(path)
+    if target.is_dir():
+        raise bad_input(f"{option}: {target} is a directory; give a file name")
+    directory = target.parent if str(target.parent) else Path(".")
+    if not directory.is_dir():
+        raise bad_input(f"{option}: the directory {directory} does not exist")
+    if not os.access(directory, os.W_OK | os.X_OK):
+        raise bad_input(f"{option}: the directory {directory} is not writable")

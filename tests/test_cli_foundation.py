@@ -107,3 +107,14 @@ def test_materials_json_of_named_materials(capsys):
     assert sorted(json.loads(capsys.readouterr().out)) == ["SiO2", "TaN"]
     assert main(["materials", "SiO3", "--json"]) == 2
     assert "Did you mean 'SiO2'" in capsys.readouterr().err
+
+
+def test_output_file_checked_before_computing(tmp_path):
+    from cli.common import check_output_file
+    from solver.errors import CaseError
+
+    check_output_file(tmp_path / "fine.h5", "--output")
+    with pytest.raises(CaseError, match=r"^--figure: .* is a directory; give a file name$"):
+        check_output_file(tmp_path, "--figure")
+    with pytest.raises(CaseError, match=r"^--output: the directory .*no-such-dir does not exist$"):
+        check_output_file(tmp_path / "no-such-dir" / "x.h5", "--output")
