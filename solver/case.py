@@ -294,6 +294,11 @@ def _set_path(raw: dict, key_path: str, value, case: Case):
 
 
 # ----------------------------------------------------------------- parsing
+# Lowest case temperature: at 12 K n_i = sqrt(Nc Nv) exp(-Eg/2kT) of Si underflows to 0 and at
+# 30 K the supply function of the stack current overflows (both measured on the demo cell);
+# 50 K keeps a margin.
+MIN_TEMPERATURE_K = 50.0
+
 TOP_KEYS = ("title", "temperature_K", "materials_file", "gate", "layers", "channel", "geometry",
             "mesh", "bias", "materials", "study")
 GATE_KEYS = ("material", "work_function_eV", "donors_cm3", "acceptors_cm3")
@@ -396,7 +401,10 @@ def parse_dict(raw: dict, *, text: str = "", source: str = "<dict>", _base_dir: 
     title = raw.get("title", Path(source).stem if not source.startswith("<") else "case")
     if not isinstance(title, str):
         raise CaseError(f"title: expected text, got {_fmt(title)}")
-    temperature = _number(raw, "temperature_K", "", default=300.0, minimum=0.0, maximum=1500.0)
+    temperature = _number(raw, "temperature_K", "", default=300.0, maximum=1500.0)
+    if temperature < MIN_TEMPERATURE_K:
+        raise CaseError(f"temperature_K: must be >= {MIN_TEMPERATURE_K:g} K, got {temperature:g} (below it the "
+                        "channel's carrier statistics leave the range of double precision)")
 
     files = ()
     if "materials_file" in raw:
