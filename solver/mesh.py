@@ -82,6 +82,7 @@ __all__ = [
 ]
 
 MAX_DEPTH_M = 20e-6
+MIN_DEPTH_M = 20e-9
 DIELECTRIC_PENETRATION_M = 2e-9  # the quantum box extends this far into the adjacent dielectric
 QUANTUM_GROWTH = 1.05  # growth cap in the channel's quantum region (inversion/accumulation layers)
 
@@ -194,7 +195,9 @@ def automatic_depth_m(spec: SemiconductorSpec, temperature_K: float) -> float:
     eps = spec.relative_permittivity * EPSILON0_F_M
     w = math.sqrt(2 * eps * (spec.gap_eV + 0.3) / (Q_C * n))
     depth = 1.2 * w + 8 * _debye_length_m(spec.relative_permittivity, n, temperature_K)
-    return min(depth, MAX_DEPTH_M)
+    # at degenerate doping w is a few nm, shorter than the quantum region (>= 15 nm) and too
+    # short for the bulk contact check: keep at least MIN_DEPTH_M
+    return min(max(depth, MIN_DEPTH_M), MAX_DEPTH_M)
 
 
 def automatic_quantum_depth_m(spec: SemiconductorSpec, temperature_K: float) -> float:
