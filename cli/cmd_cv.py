@@ -85,8 +85,11 @@ def _format(case, classical, quantum) -> str:
     cet_q = _EPS_SIO2_F_CM / quantum.capacitance_F_cm2[end] * 1e7
     cet_c = _EPS_SIO2_F_CM / classical.capacitance_F_cm2[end] * 1e7
     lines.append("")
+    eot = f"EOT {case.eot_nm:.3f} nm"
+    if case.geometry.kind == "cylindrical":  # compare with the coaxial stack's own equivalent thickness
+        eot += f"; planar-equivalent at the channel surface {_EPS_SIO2_F_CM / cox * 1e7:.3f} nm"
     lines.append(f"at {v[end]:+.3f} V: capacitance-equivalent thickness {cet_q:.3f} nm quantum, "
-                 f"{cet_c:.3f} nm classical (EOT {case.eot_nm:.3f} nm)")
+                 f"{cet_c:.3f} nm classical ({eot})")
     return "\n".join(lines)
 
 
