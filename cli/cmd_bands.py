@@ -182,6 +182,8 @@ def band_groups(solution, case):
         rows = np.nonzero(np.any(psi2 != 0, axis=1))[0]
         rows = np.arange(rows.min(), rows.max() + 1) if rows.size else np.arange(0)
         groups["subbands"] = {
+            "subband": _data(np.arange(len(solution.subbands)), "1", sb,
+                             "subband index (the order of the subband list)"),
             "valley": _data(np.array([str(s[0]) for s in solution.subbands], dtype=object), "1", sb,
                             "valley set or hole band"),
             "energy_eV": _data(np.array([float(s[1]) for s in solution.subbands]), "eV", sb,
@@ -242,6 +244,7 @@ def current_group(result):
     sb = ("subband",)
     arr = np.asarray
     per = {
+        "subband": (np.arange(len(result.valley)), "1", "subband index (the order of the subband list)"),
         "valley": (np.array(result.valley, dtype=object), "1", "valley set or hole band"),
         "energy_eV": (arr(result.energy_eV), "eV", "subband energy (scale of the band edges)"),
         "population_cm2": (arr(result.population_cm2), "cm^-2", "carriers per area in the subband"),
@@ -297,7 +300,11 @@ def _format_current(result, solution) -> str:
 def run(args) -> int:
     from solver import load_case, solve
 
+    from cli.common import check_output_file
+
     case = load_case(args.case)
+    check_output_file(args.output, "--output")
+    check_output_file(args.figure, "--figure")
     gate_V = case.bias.gate_V if args.gate_V is None else float(args.gate_V)
     quantum = not args.classical
     statistics = "boltzmann" if args.boltzmann else "fermi-dirac"

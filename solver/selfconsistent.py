@@ -687,8 +687,8 @@ def solve_structure(prep: Prepared, gate_V: float, quantum: bool = True, phi0=No
             f"collect against the edge of the quantum box inside layer {layer!r} (field "
             f"{sol.layer_fields_MV_cm[-1]:+.1f} MV/cm at the channel): the dielectric's {band} band "
             f"falls below their subbands there, they would tunnel into the dielectric; the bound-state "
-            f"channel model does not hold at this bias (the classical channel, quantum=False, still "
-            f"applies)")
+            f"channel model does not hold at this bias (a classical channel still applies: --classical "
+            f"on the command line, quantum=False in the library)")
     return _check_bulk_contact(prep, sol)
 
 
