@@ -443,7 +443,12 @@ def surface_charge_C_m2(data: StackData, psi_V):
     n0, p0, kT, _ = _bulk_channel(data)
     u = np.asarray(psi_V, float) / kT
     eps_s = data.channel_permittivity * EPSILON0_F_M
-    g = p0 * (np.expm1(-u) + u) + n0 * (np.expm1(u) - u)
+    # p0 (e^-u - 1 + u) + n0 (e^u - 1 - u); the exponentials taken with the densities' logs so a
+    # tiny minority density times a huge exponential neither overflows nor warns
+    with np.errstate(over="ignore"):
+        ep = np.where(-u > 40.0, np.exp(math.log(p0) - u) - p0, p0 * np.expm1(-u)) if p0 > 0 else 0.0
+        en = np.where(u > 40.0, np.exp(math.log(n0) + u) - n0, n0 * np.expm1(u)) if n0 > 0 else 0.0
+    g = ep + p0 * u + en - n0 * u
     return -np.sign(u) * np.sqrt(2.0 * eps_s * kT * Q_C * np.maximum(g, 0.0))
 
 
