@@ -102,9 +102,12 @@ def _regime_spans(field, regime):
 
 
 def _shade_regimes(ax, field, regime, label=True):
-    for a, b, name in _regime_spans(field, regime):
+    spans = _regime_spans(field, regime)
+    total = (spans[-1][1] - spans[0][0]) if spans else 0.0
+    for a, b, name in spans:
         ax.axvspan(a, b, color=_REGIME_FILL.get(name, "#ffffff"), zorder=0, lw=0)
-        if label and b - a > 0:
+        # label a span only where its name fits (the shading still shows narrow spans)
+        if label and b - a > 0 and (b - a) >= 0.15 * total:
             ax.text(0.5 * (a + b), 0.985, _REGIME_TEXT.get(name, name), transform=ax.get_xaxis_transform(),
                     ha="center", va="top", fontsize=8, color="#333333")
 
